@@ -1,0 +1,23 @@
+"""dampline: damped forced response of one-dimensional continua.
+
+Public API (SI units, Hz, time convention e^{+i w t})::
+
+    import dampline as dl
+    line = dl.Line.from_dict(spec)           # or dl.load("model.toml")
+    f = dl.natural_frequencies(line, count=8)
+    m = dl.modes(line, count=8)              # m.frequencies, m.shape(x)
+    H = dl.frf(line, freqs_hz, drive_at=0.0, response_at=[0.0, 0.25])
+"""
+
+from .errors import ModelError
+from .model import Absorber, Attachment, Damping, EndTable, Line, Segment, dumps, load, save
+from .results import FRF, Peaks
+from .solve import ModeSet, frf, modes, natural_frequencies
+
+__version__ = "0.1.0"
+
+__all__ = [
+    "ModelError", "Line", "Segment", "EndTable", "Attachment", "Absorber", "Damping",
+    "load", "save", "dumps", "frf", "natural_frequencies", "modes", "ModeSet", "FRF",
+    "Peaks", "__version__",
+]

@@ -1,0 +1,96 @@
+"""Model files: TOML in (``tomllib``), TOML out (a small writer for our schema), atomic saves."""
+
+from __future__ import annotations
+
+import math
+import os
+import tempfile
+import tomllib
+from pathlib import Path
+from typing import Any
+
+from ..errors import ModelError
+from .line import Line
+
+__all__ = ["load", "save", "dumps"]
+
+
+def load(path: str | os.PathLike) -> Line:
+    """Read a model TOML file into a validated :class:`Line`."""
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise ModelError("path", str(p), "", f"cannot read the model file ({exc.strerror})") from None
+    except UnicodeDecodeError:
+        raise ModelError("path", str(p), "", "the model file is not UTF-8 text") from None
+    try:
+        spec = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ModelError("path", str(p), "", f"malformed TOML: {exc}") from None
+    try:
+        return Line.from_dict(spec)
+    except ModelError as exc:
+        raise ModelError(exc.key, exc.value, exc.unit, f"{exc.reason} (in {p})") from None
+
+
+def save(line: Line, path: str | os.PathLike) -> Path:
+    """Write ``line`` as TOML, atomically: a temporary file beside the target,
+    flushed to disk, then renamed over it, so a crash never leaves half a model."""
+    if not isinstance(line, Line):
+        raise ModelError("line", type(line).__name__, "", "dl.save needs a dampline.Line")
+    p = Path(path)
+    text = dumps(line)
+    directory = p.parent if str(p.parent) else Path(".")
+    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=directory)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, p)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+    return p
+
+
+def _value(v: Any) -> str:
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, int):
+        return str(v)
+    if isinstance(v, float):
+        if not math.isfinite(v):
+            raise ModelError("value", v, "", "cannot write a non-finite number")
+        return repr(v)
+    if isinstance(v, str):
+        return '"' + v.replace("\\", "\\\\").replace('"', '\\"').replace("\n", "\\n") + '"'
+    if isinstance(v, (list, tuple)):
+        return "[" + ", ".join(_value(x) for x in v) + "]"
+    if isinstance(v, dict):
+        return "{ " + ", ".join(f"{k} = {_value(x)}" for k, x in v.items()) + " }"
+    raise ModelError("value", v, "", "cannot be written to TOML")
+
+
+def dumps(line: Line) -> str:
+    """The model as TOML text (the normalised dict of :meth:`Line.to_dict`)."""
+    d = line.to_dict()
+    out = []
+    for k in ("title", "kind"):
+        if k in d:
+            out.append(f"{k} = {_value(d[k])}")
+    for seg in d["segments"]:
+        out.append("\n[[segments]]")
+        out += [f"{k} = {_value(v)}" for k, v in seg.items()]
+    out.append("\n[ends]")
+    out += [f"{k} = {_value(v)}" for k, v in d["ends"].items()]
+    for att in d.get("attachments", []):
+        out.append("\n[[attachments]]")
+        out += [f"{k} = {_value(v)}" for k, v in att.items()]
+    out.append("\n[damping]")
+    out += [f"{k} = {_value(v)}" for k, v in d["damping"].items()]
+    return "\n".join(out) + "\n"

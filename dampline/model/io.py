@@ -58,6 +58,17 @@ def save(line: Line, path: str | os.PathLike) -> Path:
     return p
 
 
+_ESCAPES = {"\\": "\\\\", '"': '\\"', "\n": "\\n", "\t": "\\t", "\r": "\\r"}
+
+
+def _escape(ch: str) -> str:
+    # TOML basic strings allow no raw control characters (a title pasted with \r
+    # would otherwise save a file that cannot be loaded again)
+    if ch in _ESCAPES:
+        return _ESCAPES[ch]
+    return f"\\u{ord(ch):04X}" if ord(ch) < 32 or ord(ch) == 127 else ch
+
+
 def _value(v: Any) -> str:
     if isinstance(v, bool):
         return "true" if v else "false"
@@ -68,7 +79,7 @@ def _value(v: Any) -> str:
             raise ModelError("value", v, "", "cannot write a non-finite number")
         return repr(v)
     if isinstance(v, str):
-        return '"' + v.replace("\\", "\\\\").replace('"', '\\"').replace("\n", "\\n") + '"'
+        return '"' + "".join(_escape(ch) for ch in v) + '"'
     if isinstance(v, (list, tuple)):
         return "[" + ", ".join(_value(x) for x in v) + "]"
     if isinstance(v, dict):

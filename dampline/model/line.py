@@ -115,7 +115,8 @@ def _check_keys(where: str, given: Mapping[str, Any], allowed: tuple[str, ...], 
         if k not in allowed:
             near = [a for a in allowed if a.lower() == str(k).lower()]
             hint = f"; did you mean {near[0]!r}?" if near else ""
-            raise ModelError(f"{where}.{k}", given[k], unit_of(str(k), kind),
+            # a case slip ("e" for "E") still shows the unit the value was meant in
+            raise ModelError(f"{where}.{k}", given[k], unit_of(near[0] if near else str(k), kind),
                              f"unknown key for kind {kind!r} (allowed: {', '.join(allowed)}){hint}")
 
 
@@ -310,9 +311,10 @@ class Line:
         if kind == "duct":
             raise ModelError(where, att.to_dict(), "", "point attachments are for structural "
                              "lines; ducts take none in this version")
-        at = _number(f"{where}.at", att.at, kind, allow_zero=True)
+        # no sign check here: a position a rounding error below 0 is the left end
+        at = _number(f"{where}.at", att.at, kind, positive=False)
         tol = END_SNAP * L
-        if at > L + tol:
+        if at < -tol or at > L + tol:
             raise ModelError(f"{where}.at", att.at, "m", f"is off the line (length {L:g} m)")
         snapped = 0.0 if at <= tol else (L if abs(at - L) <= tol else at)
         object.__setattr__(att, "at", snapped)
@@ -437,7 +439,9 @@ class Line:
             _check_keys(where, raw, ("at", "mass", "spring", "dashpot", "absorber"), kind)
             if "at" not in raw:
                 raise ModelError(f"{where}.at", None, "m", "is required")
-            vals = {k: _number(f"{where}.{k}", raw[k], kind, allow_zero=True)
+            # 'at' has no sign check here: Line range-checks it and snaps it to an end
+            vals = {k: _number(f"{where}.{k}", raw[k], kind, allow_zero=(k != "at"),
+                               positive=(k != "at"))
                     for k in ("at", "mass", "spring", "dashpot") if k in raw}
             absorber = None
             if "absorber" in raw:

@@ -1,8 +1,9 @@
 """Exact frequency response by dynamic stiffness, batched over frequency.
 
 For all frequencies at once: assemble the exact piece stiffnesses and point
-stiffnesses (ends, attachments, absorbers) into K(w), solve K(w) u = f(w) with
-one batched LAPACK call, then evaluate the exact interior solution of each
+stiffnesses (ends, attachments, absorbers condensed exactly) into the
+tridiagonal K(w), solve K(w) u = f(w) by batched elimination with partial
+pivoting (:mod:`dampline.solve.banded`), then evaluate the exact interior solution of each
 piece at the response points (Doyle 1997; Banerjee 1997).
 """
 
@@ -18,8 +19,8 @@ from ..errors import ModelError
 from ..families import FAMILIES
 from ..model.line import END_SNAP, Line
 from ..results import FRF
-from .mesh import (Mesh, assemble, build_mesh, dirichlet_nodes, free_dofs,
-                   piece_wavenumbers)
+from .banded import tridiagonal_solve
+from .mesh import Mesh, assemble_tridiagonal, build_mesh, dirichlet_nodes
 
 __all__ = ["frf", "Drive", "Quantity"]
 
@@ -171,12 +172,12 @@ def _exact(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, qua
     nn = mesh.n_nodes
     # an imposed velocity replaces the driven end's own condition
     replaced = (side == 0, side == 1)
-    K, _ = assemble(mesh, omega, damped=True, ends=(not replaced[0], not replaced[1]))
-    held = dirichlet_nodes(line, replaced)
-    nf, n = omega.size, mesh.n_dof
-    U = np.zeros((nf, n), dtype=complex)
-    rhs = np.zeros((nf, n), dtype=complex)
+    diag, off, S, k = assemble_tridiagonal(mesh, omega, ends=(not replaced[0], not replaced[1]))
+    nf = omega.size
+    U = np.zeros((nf, nn), dtype=complex)
+    rhs = np.zeros((nf, nn), dtype=complex)
     node_d = mesh.node_at(xd)
+    held = set(i % nn for i in dirichlet_nodes(line, replaced))
     if drive == "force":
         rhs[:, node_d] = 1.0
     elif drive == "volume_velocity":
@@ -185,33 +186,28 @@ def _exact(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, qua
         area = line.segments[0 if side == 0 else -1].area
         rhs[:, node_d] = 1j * omega * area * (1.0 if side == 0 else -1.0)
     else:                                        # structure: imposed displacement 1/(i w)
-        held = held + [node_d]
+        held.add(node_d)
         U[:, node_d] = 1.0 / (1j * omega)
-        rhs -= K[:, :, node_d] * U[:, node_d, None]
-    free = free_dofs(mesh, held)
-    Kf = K[:, free[:, None], free[None, :]]
-    U[:, free] = _batched_solve(Kf, rhs[:, free], f)
-    return _interior(mesh, omega, U[:, :nn], xr, quantity)
+        nb = 1 if node_d == 0 else nn - 2
+        rhs[:, nb] -= off[:, min(node_d, nb)] * U[:, node_d]
+    # held nodes can only be the two ends: the free ones are a contiguous run
+    lo = 1 if 0 in held else 0
+    hi = nn - 1 if (nn - 1) in held else nn
+    if hi > lo:
+        U[:, lo:hi] = _solve(off[:, lo:hi - 1], diag[:, lo:hi], rhs[:, lo:hi], f)
+    return _interior(mesh, omega, S, k, U, xr, quantity)
 
 
-def _batched_solve(A: np.ndarray, b: np.ndarray, f: np.ndarray) -> np.ndarray:
-    try:
-        return np.linalg.solve(A, b[..., None])[..., 0]
-    except np.linalg.LinAlgError:
-        pass
-    # Exactly singular only at an undamped resonance hit to the last bit: the
-    # physics is infinite there. Solve the others one by one (rare path).
-    out = np.empty_like(b)
-    bad = []
-    for i in range(A.shape[0]):
-        try:
-            out[i] = np.linalg.solve(A[i], b[i])
-        except np.linalg.LinAlgError:
-            out[i] = complex(np.inf, np.inf)
-            bad.append(f[i])
-    warnings.warn(f"undamped resonance exactly at {bad[:5]} Hz: the response there is "
-                  "infinite (returned as inf)", RuntimeWarning, stacklevel=4)
-    return out
+def _solve(off: np.ndarray, diag: np.ndarray, rhs: np.ndarray, f: np.ndarray) -> np.ndarray:
+    x = tridiagonal_solve(off, diag, off, rhs)
+    bad = ~np.isfinite(x).all(axis=1)
+    if bad.any():
+        # exactly singular only at an undamped resonance hit to the last bit:
+        # the physics is infinite there, and we say so
+        x[bad] = complex(np.inf, np.inf)
+        warnings.warn(f"undamped resonance exactly at {f[bad][:5].tolist()} Hz: the response "
+                      "there is infinite (returned as inf)", RuntimeWarning, stacklevel=4)
+    return x
 
 
 def interior_weights(S, k, h, xi, derivative: bool):
@@ -230,10 +226,9 @@ def interior_weights(S, k, h, xi, derivative: bool):
     return A, B
 
 
-def _interior(mesh: Mesh, omega: np.ndarray, Un: np.ndarray, xr: np.ndarray,
-              quantity: str) -> np.ndarray:
+def _interior(mesh: Mesh, omega: np.ndarray, S: np.ndarray, k: np.ndarray, Un: np.ndarray,
+              xr: np.ndarray, quantity: str) -> np.ndarray:
     p, xi = mesh.locate(xr)
-    S, k = piece_wavenumbers(mesh, omega, damped=True)
     S, k = S[:, p], k[:, p]
     h = mesh.piece_h[p]
     ua, ub = Un[:, p], Un[:, p + 1]

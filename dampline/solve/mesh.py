@@ -163,16 +163,13 @@ def _lumped(w, mass, spring, dashpot, d, damped):
 
 # ------------------------------------------------------------ piece physics
 def piece_wavenumbers(mesh: Mesh, omega: np.ndarray, damped: bool):
-    """(S, k) of every piece: arrays (n_freq, n_piece); Im k <= 0 when damped."""
+    """(S, k) of every piece: arrays (n_freq, n_piece); Im k <= 0 when damped.
+    Computed once per segment; pieces of a segment share it."""
     S, W2M = segment_coefficients(mesh.line, omega, damped=damped)
-    S = S[:, mesh.piece_seg]
-    W2M = W2M[:, mesh.piece_seg]
+    k = np.sqrt(W2M / S)
     if damped:
-        k = np.sqrt(W2M / S)
         k = np.where(k.imag > 0.0, -k, k)
-    else:
-        k = np.sqrt(W2M / S)
-    return S, k
+    return S[:, mesh.piece_seg], k[:, mesh.piece_seg]
 
 
 def piece_stiffness(S, k, h, damped: bool):
@@ -271,3 +268,32 @@ def static_stiffness(mesh: Mesh) -> np.ndarray:
             node = 0 if side == 0 else nn - 1
             K[node, node] += float(end_stiffness(line, side, zero, damped=False)[0])
     return K
+
+
+def assemble_tridiagonal(mesh: Mesh, omega: np.ndarray, *, ends: tuple[bool, bool] = (True, True)
+                         ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Damped dynamic stiffness of the line nodes as (diag (n_freq, n), off (n_freq, n-1)),
+    with the pieces' (S, k) for the interior solution.
+
+    Absorbers are condensed exactly onto their node: with s = k + i w c the
+    spring-dashpot and z = -w^2 m the mass term, the node sees s z / (s + z).
+    """
+    line = mesh.line
+    omega = np.asarray(omega, dtype=float)
+    nf, nn = omega.size, mesh.n_nodes
+    S, k = piece_wavenumbers(mesh, omega, True)
+    k11, k12 = piece_stiffness(S, k, mesh.piece_h, True)
+    diag = np.zeros((nf, nn), dtype=complex)
+    diag[:, :-1] += k11
+    diag[:, 1:] += k11
+    d = line.damping
+    for node, m, s, c in mesh.lumped:
+        diag[:, node] += _lumped(omega, m, s, c, d, True)
+    for node, ab in mesh.absorbers:
+        s = _lumped(omega, 0.0, ab.stiffness, ab.damping, d, True)
+        z = _lumped(omega, ab.mass, 0.0, 0.0, d, True)
+        diag[:, node] += s * z / (s + z)
+    for side in (0, 1):
+        if ends[side] and end_condition(line, side) == "point":
+            diag[:, 0 if side == 0 else nn - 1] += end_stiffness(line, side, omega, True)
+    return diag, k12, S, k

@@ -1,0 +1,1 @@
+"""Benchmarks: dampline against hand-written scipy baselines, timed in the same run."""

@@ -10,11 +10,11 @@ from __future__ import annotations
 
 import math
 
-import mpmath as mp
 import numpy as np
 import pytest
 
 import dampline as dl
+from _reference_tools import check, gauss_points, scan_roots
 
 # One representative of each kind: its spec maker, wave speed c and mass per
 # length m (the analogue compliance A / (rho c^2) for a duct). Ends are named in
@@ -86,16 +86,6 @@ def _end_words(kind, ends):
     return k[ends[0]], k[ends[1]]
 
 
-def _gauss_points(bounds, order):
-    """Gauss-Legendre nodes and weights on every interval of ``bounds``."""
-    t, w = np.polynomial.legendre.leggauss(order)
-    xs, ws = [], []
-    for a, b in zip(bounds[:-1], bounds[1:]):
-        xs.append(0.5 * (b - a) * t + 0.5 * (a + b))
-        ws.append(0.5 * (b - a) * w)
-    return np.concatenate(xs), np.concatenate(ws)
-
-
 ALL_ENDS = ("dd", "nn", "dn", "nd")
 
 
@@ -113,9 +103,9 @@ def test_uniform_natural_frequencies(kind, ends):
     assert f.shape == (COUNT,)
     if ends == "nn":
         assert f[0] == 0.0                               # rigid-body mode reported as 0.0
-        np.testing.assert_allclose(f[1:], f_ref[1:], rtol=1e-12, atol=0)
+        check("uniform f_n (Kinsler; Rao)", f[1:], f_ref[1:], rtol=1e-12)
     else:
-        np.testing.assert_allclose(f, f_ref, rtol=1e-12, atol=0)
+        check("uniform f_n (Kinsler; Rao)", f, f_ref, rtol=1e-12)
 
 
 @pytest.mark.parametrize("kind", list(KINDS))
@@ -126,7 +116,8 @@ def test_uniform_mode_shapes_and_mass_normalisation(kind, ends):
     line = _line(kind, [k["seg"](LENGTH)], *_end_words(kind, ends))
     ms = dl.modes(line, count)
     f_ref, shape, dshape = _uniform_reference(ends, k["c"], LENGTH, count)
-    np.testing.assert_allclose(ms.frequencies, f_ref, rtol=1e-12, atol=1e-9 * f_ref.max())
+    check("uniform f_n via modes (Kinsler; Rao)", ms.frequencies, f_ref, rtol=1e-12,
+          atol=1e-12 * f_ref.max())
     x = np.linspace(0.0, LENGTH, 101)
     # closed-form shapes sqrt(2/(m L)) sin(...) / cos(...), sqrt(1/(m L)) rigid (Rao),
     # equal up to sign
@@ -138,13 +129,13 @@ def test_uniform_mode_shapes_and_mass_normalisation(kind, ends):
     sign = np.sign(np.sum(got * ref, axis=0))
     assert np.all(sign != 0)
     scale = np.abs(ref).max()
-    np.testing.assert_allclose(got * sign, ref, rtol=0, atol=1e-8 * scale)
-    np.testing.assert_allclose(dgot * sign, dref, rtol=0, atol=1e-8 * np.abs(dref).max())
+    check("uniform mode shapes (Rao)", got * sign, ref, rtol=0, atol=1e-8 * scale)
+    check("uniform mode slopes (Rao)", dgot * sign, dref, rtol=0, atol=1e-8 * np.abs(dref).max())
     # mass orthonormality by Gauss-Legendre quadrature, independent of the shapes above
-    xq, wq = _gauss_points([0.0, LENGTH], 120)
+    xq, wq = gauss_points([0.0, LENGTH], 120)
     phi = ms.shape(xq)
     gram = phi.T @ (k["m"] * wq[:, None] * phi)
-    np.testing.assert_allclose(gram, np.eye(count), rtol=0, atol=1e-8)
+    check("uniform mass orthonormality (quadrature)", gram, np.eye(count), rtol=0, atol=1e-8)
 
 
 # --------------------------------------------------------------- stepped lines
@@ -165,24 +156,6 @@ def _two_segment_equation(ends, z1, z2, t1, t2):
                 "nn": z1 * s1 * c2 + z2 * c1 * s2,
                 "nd": z1 * s1 * s2 - z2 * c1 * c2}[ends]
     return g
-
-
-def _scan_roots(g, w_max, count, n_grid, w_min=0.0, dense=()):
-    """Positive roots of g (a function of (w, lib)) in (w_min, w_max]: sign changes on a
-    grid (plus optional dense sub-grids), each refined by mpmath's bracketing solver."""
-    grid = np.linspace(w_min, w_max, n_grid)[1:]
-    grid = np.unique(np.concatenate([grid, *dense]))
-    vals = g(grid, np)
-    idx = np.flatnonzero(np.sign(vals[:-1]) * np.sign(vals[1:]) < 0)
-    roots = []
-    with mp.workdps(30):
-        for i in idx[:count]:
-            a, b = mp.mpf(grid[i]), mp.mpf(grid[i + 1])
-            r = mp.findroot(lambda w: g(w, mp), (a, b), solver="anderson")
-            assert a <= r <= b
-            roots.append(float(r))
-    assert len(roots) == count, "scan too short: extend w_max"
-    return np.array(roots)
 
 
 STEPPED_CASES = [
@@ -211,13 +184,14 @@ def test_stepped_line_against_mpmath_roots(kind, ends, lengths, scale):
     t1, t2 = lengths[0] / c1, lengths[1] / c2
     g = _two_segment_equation(ends, z1, z2, t1, t2)
     n_el = count - (1 if ends == "nn" else 0)
-    w_max = (n_el + 3) * math.pi / (t1 + t2) * max(1.0, 2 * max(t1, t2) / (t1 + t2)) * 2
-    ref = _scan_roots(g, w_max, n_el, n_grid=400 * count) / (2 * math.pi)
+    # a Wittrick-Williams style count: about w (t1 + t2) / pi roots lie below w
+    w_max = (n_el + 3) * math.pi / (t1 + t2)
+    ref = scan_roots(g, w_max, n_el, n_grid=400 * count) / (2 * math.pi)
     if ends == "nn":
         assert got[0] == 0.0
         got = got[1:]
     # mpmath roots of the two-segment frequency equation derived above
-    np.testing.assert_allclose(got, ref, rtol=1e-10, atol=0)
+    check("stepped line f_n (mpmath roots)", got, ref, rtol=1e-10)
 
 
 @pytest.mark.parametrize("kind", list(KINDS))
@@ -233,13 +207,13 @@ def test_uniform_line_split_into_segments(kind, ends, split):
     line = _line(kind, segs, *_end_words(kind, ends))
     f_ref, shape, _ = _uniform_reference(ends, k["c"], LENGTH, COUNT)
     f = dl.natural_frequencies(line, COUNT)
-    np.testing.assert_allclose(f, f_ref, rtol=1e-12, atol=1e-12 * f_ref.max())
+    check("split uniform f_n (Kinsler; Rao)", f, f_ref, rtol=1e-12, atol=1e-12 * f_ref.max())
     ms = dl.modes(line, 10)
     x = np.linspace(0.0, LENGTH, 53)
     got = ms.shape(x)
     ref = shape(x)[:, :10] / math.sqrt(k["m"])
     sign = np.sign(np.sum(got * ref, axis=0))
-    np.testing.assert_allclose(got * sign, ref, rtol=0, atol=1e-8 * np.abs(ref).max())
+    check("split uniform mode shapes (Rao)", got * sign, ref, rtol=0, atol=1e-8 * np.abs(ref).max())
 
 
 # --------------------------------------------------------------- close pairs
@@ -279,9 +253,9 @@ def test_absorber_tuned_on_a_mode_gives_a_close_pair(mode, mu):
     # the pair splits by about sqrt(2 mu) w_n: resolve it with a dense sub-grid
     half = 4 * math.sqrt(2 * mu) * wn
     dense = np.linspace(wn - half, wn + half, 4001)
-    ref = _scan_roots(g, w_max, count, n_grid=20000, dense=(dense,)) / (2 * math.pi)
+    ref = scan_roots(g, w_max, count, n_grid=20000, dense=(dense,)) / (2 * math.pi)
     assert np.all(np.diff(got) > 0)
-    np.testing.assert_allclose(got, ref, rtol=1e-10, atol=0)
+    check("tip absorber close pair (mpmath roots)", got, ref, rtol=1e-10)
     pair = got[mode - 1:mode + 1]
     assert pair[0] < wn / (2 * math.pi) < pair[1]       # one mode each side of the tuning
 
@@ -306,18 +280,18 @@ def test_two_identical_absorbers_add_a_mode_exactly_at_their_frequency():
     g = _tip_absorber_equation(2 * ma, 2 * ka)
     half = 8 * math.sqrt(4e-6) * w1
     dense = np.linspace(w1 - half, w1 + half, 4001)
-    coupled = _scan_roots(g, (count + 1) * math.pi * C_BAR / L_BAR, count - 1, n_grid=20000,
+    coupled = scan_roots(g, (count + 1) * math.pi * C_BAR / L_BAR, count - 1, n_grid=20000,
                           dense=(dense,))
     ref = np.sort(np.append(coupled, w1)) / (2 * math.pi)
-    np.testing.assert_allclose(got, ref, rtol=1e-10, atol=0)
+    check("two absorbers cluster (mpmath roots)", got, ref, rtol=1e-10)
     ms = dl.modes(line, 3)
     # the middle mode of the cluster leaves the bar at rest, the absorbers opposite
     q = ms.absorber_amplitudes[1]
     x = np.linspace(0, L_BAR, 21)
     assert np.abs(ms.shape(x)[:, 1]).max() <= 1e-6 * np.abs(q).max()
-    np.testing.assert_allclose(q[0], -q[1], rtol=1e-8)
+    check("opposed absorbers", q[0], -q[1], rtol=1e-8)
     # mass normalised through the absorber masses alone: 2 ma q^2 = 1
-    np.testing.assert_allclose(ma * (q ** 2).sum(), 1.0, rtol=1e-8)
+    check("absorber-only mode mass", ma * (q ** 2).sum(), 1.0, rtol=1e-8)
 
 
 @pytest.mark.parametrize("ratio,offset", [(100.0, 1e-4), (1e4, 1e-7)])
@@ -345,12 +319,12 @@ def test_weakly_coupled_string_halves_give_close_pairs(ratio, offset):
     dense = [np.linspace(n * w_half * (1 - 1e-2), n * w_half * (1 + 1e-2), 200001)
              for n in range(1, 7)]
     w_max = 6.5 * w_half
-    ref = _scan_roots(g, w_max, count, n_grid=20000, w_min=1e-3 * c / L, dense=dense)
+    ref = scan_roots(g, w_max, count, n_grid=20000, w_min=1e-3 * c / L, dense=dense)
     got = dl.natural_frequencies(line, count)
     assert np.all(np.diff(got) > 0)
     gaps = np.diff(ref)[1::2] / ref[2::2]
     assert gaps.max() < 1e-2                              # they are close pairs indeed
-    np.testing.assert_allclose(got, ref / (2 * math.pi), rtol=1e-10, atol=0)
+    check("weakly coupled string halves (mpmath roots)", got, ref / (2 * math.pi), rtol=1e-10)
 
 
 # --------------------------------------------------------------- stepped modes
@@ -369,7 +343,8 @@ def test_mass_orthonormality_of_a_loaded_stepped_line():
     count = 15
     ms = dl.modes(line, count)
     bounds = line.boundaries
-    xq, wq = _gauss_points(bounds, 80)
+    # attachments put kinks in the shapes: split the quadrature there too
+    xq, wq = gauss_points(sorted(set(bounds) | {0.25, 0.9, 1.4}), 80)
     m_of_x = np.select([xq < bounds[1], xq < bounds[2]],
                        [7850.0 * 3.0e-4, 2700.0 * 8.0e-4], 4430.0 * 1.5e-4)
     phi = ms.shape(xq)
@@ -380,6 +355,7 @@ def test_mass_orthonormality_of_a_loaded_stepped_line():
     q = ms.absorber_amplitudes
     assert q.shape == (count, 1)
     gram += 0.3 * q @ q.T
-    np.testing.assert_allclose(gram, np.eye(count), rtol=0, atol=1e-8)
+    check("loaded stepped mass orthonormality (quadrature)", gram, np.eye(count), rtol=0,
+          atol=1e-8)
     # no spring to ground at the ends, but one at x = 1.4: no rigid-body mode
     assert ms.frequencies[0] > 0.0

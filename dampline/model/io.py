@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import math
 import os
-import tempfile
+import secrets
+import stat
 import tomllib
 from pathlib import Path
 from typing import Any
@@ -41,10 +42,11 @@ def save(line: Line, path: str | os.PathLike) -> Path:
         raise ModelError("line", type(line).__name__, "", "dl.save needs a dampline.Line")
     p = Path(path)
     text = dumps(line)
-    directory = p.parent if str(p.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=directory)
+    fd, tmp = _open_beside(p)
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            if p.exists():   # an overwrite keeps the file's permissions
+                os.chmod(tmp, stat.S_IMODE(p.stat().st_mode))
             fh.write(text)
             fh.flush()
             os.fsync(fh.fileno())
@@ -56,6 +58,19 @@ def save(line: Line, path: str | os.PathLike) -> Path:
             pass
         raise
     return p
+
+
+def _open_beside(p: Path) -> tuple[int, str]:
+    """Create a new temporary file beside ``p`` with the permissions a plain open
+    gives (0666 less the umask): mkstemp's 0600 would make a saved model, once
+    renamed, unreadable to the colleagues who are meant to re-run it."""
+    directory = p.parent if str(p.parent) else Path(".")
+    while True:
+        tmp = directory / f".{p.name}.{secrets.token_hex(6)}.tmp"
+        try:
+            return os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666), str(tmp)
+        except FileExistsError:
+            continue
 
 
 _ESCAPES = {"\\": "\\\\", '"': '\\"', "\n": "\\n", "\t": "\\t", "\r": "\\r"}

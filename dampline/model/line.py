@@ -232,7 +232,7 @@ class Line:
 
     kind: str
     segments: tuple[Segment, ...]
-    ends: tuple[End, End] = ("free", "free")
+    ends: tuple[End, End] | None = None      # None: the kind's default ends
     attachments: tuple[Attachment, ...] = ()
     damping: Damping = Damping()
     title: str = ""
@@ -247,6 +247,8 @@ class Line:
             raise ModelError("kind", kind, "", f"unknown kind (use one of {', '.join(KINDS)})")
         object.__setattr__(self, "segments", tuple(self.segments))
         object.__setattr__(self, "attachments", tuple(self.attachments))
+        if self.ends is None:
+            object.__setattr__(self, "ends", _DEFAULT_ENDS[kind])
         object.__setattr__(self, "ends", tuple(self.ends))
         if not self.segments:
             raise ModelError("segments", [], "", "a line needs at least one segment")

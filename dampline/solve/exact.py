@@ -78,7 +78,7 @@ def quantity_unit(kind: str, quantity: str, drive: str) -> str:
     num = {"receptance": u, "mobility": f"{u}/s", "accelerance": f"{u}/s^2",
            "force": fam.force_unit}[quantity]
     den = {"force": fam.force_unit, "velocity": f"{u}/s"}[drive]
-    return f"{num}/({den})"
+    return f"{num}/({den})" if (" " in den or "/" in den) else f"{num}/{den}"
 
 
 def check_request(line: Line, drive: str, quantity: str | None, drive_at) -> tuple[str, str, float, int | None]:

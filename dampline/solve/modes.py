@@ -44,15 +44,18 @@ def _negcount(A: np.ndarray, bw: int) -> np.ndarray:
     by Gaussian elimination without pivoting (LDL^T; A is overwritten)."""
     nb, n, _ = A.shape
     neg = np.zeros(nb, dtype=int)
-    scale = np.abs(A).max(axis=(1, 2)) * 1e-300 + 1e-300
-    for j in range(n):
-        p = A[:, j, j]
-        p = np.where(p == 0.0, scale, p)      # an exact zero pivot: perturb (measure zero)
-        neg += p < 0.0
-        hi = min(n, j + bw + 1)
-        if hi > j + 1:
-            col = A[:, j + 1:hi, j]
-            A[:, j + 1:hi, j + 1:hi] -= col[:, :, None] * (col / p[:, None])[:, None, :]
+    # an exactly zero pivot is replaced by a tiny one of the matrix's scale, as in
+    # Sturm-sequence bisection; near-singular pivots legitimately produce huge entries
+    tiny = np.abs(A).max(axis=(1, 2)) * np.finfo(float).eps + np.finfo(float).tiny
+    with np.errstate(over="ignore", invalid="ignore"):
+        for j in range(n):
+            p = A[:, j, j]
+            p = np.where(p == 0.0, tiny, p)
+            neg += p < 0.0
+            hi = min(n, j + bw + 1)
+            if hi > j + 1:
+                col = A[:, j + 1:hi, j]
+                A[:, j + 1:hi, j + 1:hi] -= col[:, :, None] * (col / p[:, None])[:, None, :]
     return neg
 
 
@@ -257,8 +260,8 @@ def _mode_vectors(counter: _Counter, omega: np.ndarray, n_rigid: int) -> np.ndar
         w = omega[el]
         K, _ = assemble(mesh, w, damped=False)
         Kf = K[:, free[:, None], free[None, :]]
-        # scale rows/columns to unit diagonal so the smallest |eigenvalue| is meaningful
-        d = np.sqrt(np.abs(np.einsum("bii->bi", Kf))) + 1e-300
+        # symmetric row-norm scaling (a diagonal entry can cancel to ~0 at a root)
+        d = np.sqrt(np.abs(Kf).max(axis=2)) + 1e-300
         Ks = Kf / d[:, :, None] / d[:, None, :]
         ev, vec = np.linalg.eigh(Ks)
         order = np.argsort(np.abs(ev), axis=1)

@@ -56,7 +56,10 @@ LINES = {
 def _spec(kind, end_mass, side="right", **extra_end):
     seg, S, m, L = LINES[kind]
     table = {"mass": end_mass, **extra_end}
-    ends = {"left": "fixed", "right": table} if side == "right" else {"left": table, "right": "fixed"}
+    if side == "right":
+        ends = {"left": "fixed", "right": table}
+    else:
+        ends = {"left": table, "right": "fixed"}
     return {"kind": kind, "segments": [seg], "ends": ends}
 
 

@@ -11,7 +11,7 @@ Derivations used (each repeated beside its test):
   S* u'(0) = -F; with u = C cos k(L - x),
   u(x) = -F cos k(L - x) / (k S* sin kL), so u(0)/F = -cot(kL) / (k S*) and, by the
   same steps for a force at L, u(0)/F(L) = -1 / (k S* sin kL) (textbook; e.g. Doyle,
-  Wave Propagation in Structures, ch. 2).
+  Wave Propagation in Structures, 1997).
 * fixed-free bar, Green's function for a force at a:
   u(x) = sin(k x<) cos(k (L - x>)) / (k S* cos kL), x< = min(x, a), x> = max(x, a).
 * closed duct, piston velocity v at x = 0: p(x) = -i rho c v cos k(L - x) / sin kL
@@ -34,10 +34,9 @@ C = math.sqrt(E / RHO)
 F1 = C / (2 * L)                                     # free-free fundamental (Hz)
 
 
-def _bar(left, right, eta=None, segments=None, **extra):
+def _bar(left, right, eta=None):
     seg = {"length": L, "E": E, "rho": RHO, "area": AREA}
-    spec = {"kind": "axial", "segments": segments or [seg], "ends": {"left": left, "right": right},
-            **extra}
+    spec = {"kind": "axial", "segments": [seg], "ends": {"left": left, "right": right}}
     if eta is not None:
         spec["damping"] = {"model": "loss_factor", "eta": eta}
     return dl.Line.from_dict(spec)
@@ -58,12 +57,6 @@ def _band():
     f = np.linspace(0.05 * F1, 40.3 * F1, 4000 - 80)
     f = np.concatenate([f, F1 * np.arange(1, 41), F1 * (np.arange(1, 41) - 0.5)])
     return np.sort(f)
-
-
-def _row_scaled(H):
-    """Divide each frequency's row by its largest entry, so that an absolute tolerance
-    is relative to the response level at that frequency (responses at nodes are ~0)."""
-    return H / np.abs(H).max(axis=1, keepdims=True)
 
 
 X = np.linspace(0.0, L, 13)
@@ -87,8 +80,8 @@ def test_free_free_bar_driving_point_and_transfer(eta):
     # N = S* u' = -sin k(L - x) / sin kL (tension positive)
     Hx = np.asarray(dl.frf(line, f, drive_at=0.0, response_at=X))
     ref = -np.cos(np.outer(kL, 1) - np.outer(k, X)) / (k * Ss * np.sin(kL))[:, None]
-    check("free-free field u(x)/F(0)", _row_scaled(Hx), ref / np.abs(Hx).max(axis=1, keepdims=True),
-          rtol=1e-10, atol=1e-10)
+    scale = np.abs(ref).max(axis=1, keepdims=True)
+    check("free-free field u(x)/F(0)", Hx / scale, ref / scale, rtol=1e-10, atol=1e-10)
     Nx = np.asarray(dl.frf(line, f, drive_at=0.0, response_at=X, quantity="force"))
     Nref = -np.sin(np.outer(kL, 1) - np.outer(k, X)) / np.sin(kL)[:, None]
     check("free-free internal force S* u'", Nx / np.abs(Nref).max(axis=1, keepdims=True),
@@ -113,7 +106,9 @@ def test_mobility_and_accelerance_are_derivatives_of_receptance():
 def test_undamped_free_free_bar_off_resonance():
     f = _band()
     n = f / F1
-    f = f[np.abs(n - np.round(n)) > 1e-3]           # keep away from the undamped poles
+    # keep 1e-3 away from the undamped poles (n c / 2L) and, since a relative error of an
+    # exact zero means nothing, from the driving point's zeros ((n - 1/2) c / 2L)
+    f = f[(np.abs(n - np.round(n)) > 1e-3) & (np.abs(n - 0.5 - np.round(n - 0.5)) > 1e-3)]
     line = _bar("free", "free")
     w, k, Ss = _k_and_stiffness(f, 0.0)
     H = np.asarray(dl.frf(line, f, drive_at=0.0, response_at=[0.0, L]))
@@ -186,7 +181,8 @@ ATTS = [{"at": 0.42, "mass": 0.3, "dashpot": 40.0},
 
 
 @pytest.mark.parametrize("side", [0, 1])
-@pytest.mark.parametrize("own_end", ["fixed", "free", {"spring": 2e7, "mass": 0.4, "dashpot": 30.0}])
+@pytest.mark.parametrize("own_end", ["fixed", "free",
+                                     {"spring": 2e7, "mass": 0.4, "dashpot": 30.0}])
 def test_velocity_drive_is_the_receptance_ratio(side, own_end):
     # With the driven end's displacement imposed, the rest of the line responds as it
     # does to any load at that end with the same end displacement (uniqueness of the
@@ -208,7 +204,8 @@ def test_velocity_drive_is_the_receptance_ratio(side, own_end):
     Hf = np.asarray(dl.frf(line_f, f, drive_at=end, response_at=np.append(xs, end)))
     ref = Hf[:, :-1] / Hf[:, -1:] / (1j * w[:, None])
     scale = np.abs(ref).max(axis=1, keepdims=True)
-    check("velocity drive = receptance ratio / (i w)", Hv / scale, ref / scale, rtol=1e-9, atol=1e-9)
+    check("velocity drive = receptance ratio / (i w)", Hv / scale, ref / scale, rtol=1e-9,
+          atol=1e-9)
     check("velocity drive imposes u(end) = 1/(i w)", Hv[:, 0 if side == 0 else -1], 1 / (1j * w),
           rtol=1e-12)
 
@@ -238,28 +235,30 @@ def test_closed_duct_driven_by_a_piston(eta):
     k = np.where(k.imag > 0, -k, k)
     kk = k[:, None]
     xs = np.linspace(0.0, Ld, 17)
+    # undamped, frequencies within 1e-3 of a resonance amplify rounding by ~1e3
+    tol = 1e-10 if eta else 1e-9
     p = np.asarray(dl.frf(line, f, drive_at=0.0, response_at=xs, drive="velocity"))
     pref = -1j * (w * RHO_AIR / k)[:, None] * np.cos(kk * (Ld - xs)) / np.sin(kk * Ld)
     scale = np.abs(pref).max(axis=1, keepdims=True)
-    check("closed duct piston pressure (Kinsler)", p / scale, pref / scale, rtol=1e-10, atol=1e-10)
-    check("closed duct piston face pressure (Kinsler)", p[:, 0], pref[:, 0], rtol=1e-10)
+    check("closed duct piston pressure (Kinsler)", p / scale, pref / scale, rtol=tol, atol=tol)
+    check("closed duct piston face pressure (Kinsler)", p[:, 0], pref[:, 0], rtol=tol)
     u = np.asarray(dl.frf(line, f, drive_at=0.0, response_at=xs, drive="velocity",
                           quantity="velocity"))
     uref = np.sin(kk * (Ld - xs)) / np.sin(kk * Ld)
     scale = np.abs(uref).max(axis=1, keepdims=True)
-    check("closed duct particle velocity", u / scale, uref / scale, rtol=1e-10, atol=1e-10)
+    check("closed duct particle velocity", u / scale, uref / scale, rtol=tol, atol=tol)
     U = np.asarray(dl.frf(line, f, drive_at=0.0, response_at=xs, drive="velocity",
                           quantity="volume_velocity"))
-    check("closed duct volume velocity = S u", U / scale, S * uref / scale, rtol=1e-10, atol=1e-10)
+    check("closed duct volume velocity = S u", U / scale, S * uref / scale, rtol=tol, atol=tol)
     # a volume-velocity source Q = S v at the closed end is the same piston
     pq = np.asarray(dl.frf(line, f, drive_at=0.0, response_at=xs, drive="volume_velocity"))
     scale = np.abs(pref).max(axis=1, keepdims=True)
-    check("closed duct volume source at the end", pq * S / scale, pref / scale, rtol=1e-10, atol=1e-10)
+    check("closed duct volume source at the end", pq * S / scale, pref / scale, rtol=tol, atol=tol)
     # a piston at x = L moving along +x: p(x) = i w rho v cos(kx) / (k sin kL)
     pr = np.asarray(dl.frf(line, f, drive_at=Ld, response_at=xs, drive="velocity"))
     prref = 1j * (w * RHO_AIR / k)[:, None] * np.cos(kk * xs) / np.sin(kk * Ld)
     scale = np.abs(prref).max(axis=1, keepdims=True)
-    check("closed duct piston at x=L", pr / scale, prref / scale, rtol=1e-10, atol=1e-10)
+    check("closed duct piston at x=L", pr / scale, prref / scale, rtol=tol, atol=tol)
 
 
 def test_closed_duct_interior_volume_source():
@@ -328,28 +327,28 @@ def _rayleigh_series(phi_x, phi_y, wn, w, alpha, beta, static_xy):
     (G0(x, y) - sum phi phi / wn^2) / (1 + i w beta), G0 the static flexibility."""
     W = w[:, None]
     D = wn[None, :] ** 2 - W ** 2 + 1j * W * (alpha + beta * wn[None, :] ** 2)
-    pp = phi_x[:, None, :] * phi_y[None, None, :] if phi_y.ndim == 1 else None
     terms = (phi_x[None, :, :] * phi_y[None, None, :]) / D[:, None, :]
     kept = terms.sum(axis=2)
     static_kept = (phi_x * phi_y[None, :] / wn[None, :] ** 2).sum(axis=1)
     return kept + (static_xy - static_kept)[None, :] / (1 + 1j * w[:, None] * beta)
 
 
-def _rayleigh_tail_bound(w, alpha, beta, wn_of_n, amp2, N):
-    """Bound on the error of the residual-corrected sum: for each omitted mode the
-    difference between its exact term and its quasi-static part is
-    amp2 |w^2 - i w alpha| / (wn^2 |1 + i w beta| |D_n|); summed to 100 N, beyond which
-    |D_n| >= wn^2 |1 + i w beta| / 2 and wn >= (2n - 1) pi c / (2L) bound it by an
-    integral."""
-    n = np.arange(N + 1, 100 * N + 1)
-    wn = wn_of_n(n)
+def _rayleigh_tail_bound(w, alpha, beta, wn_low, amp2, N):
+    """Bound on the error of the residual-corrected sum. For each omitted mode the exact
+    term minus its quasi-static part is phi phi (w^2 - i w alpha) / (wn^2 (1 + i w beta) D_n),
+    D_n = wn^2 - w^2 + i w (alpha + beta wn^2); with |phi_n(x) phi_n(y)| <= amp2 and a lower
+    bound wn_low(n) <= wn (|D_n| grows with wn once wn > w) it is summed to n = 10 N;
+    beyond, |D_n| >= wn^2 |1 + i w beta| / 2 and wn >= (n - 1) pi c / L give
+    sum_{n > K} 2 / ((n - 1) pi c / L)^4 <= 2 (L / (pi c))^4 / (3 (K - 1)^3)."""
+    n = np.arange(N + 1, 10 * N + 1)
+    wn = wn_low(n)
     W = w[:, None]
     num = np.abs(W ** 2 - 1j * W * alpha)
+    assert wn[0] > 2 * w.max()
     D = np.abs(wn ** 2 - W ** 2 + 1j * W * (alpha + beta * wn ** 2))
     s = (amp2 * num / (wn ** 2 * np.abs(1 + 1j * W * beta) * D)).sum(axis=1)
-    K = 100 * N
-    w_slow = math.pi * C / (2 * L)                    # wn >= (2n - 1) w_slow
-    tail = amp2 * 2 * num[:, 0] / w_slow ** 4 / (6 * (2 * K - 1) ** 3)
+    K = 10 * N
+    tail = amp2 * num[:, 0] * 2 * (L / (math.pi * C)) ** 4 / (3 * (K - 1) ** 3)
     return s + tail
 
 
@@ -363,9 +362,9 @@ def test_rayleigh_damped_bar_equals_modal_series():
                               "segments": [{"length": L, "E": E, "rho": RHO, "area": AREA}],
                               "ends": {"left": "fixed", "right": "free"},
                               "damping": {"model": "rayleigh", "alpha": alpha, "beta": beta}})
-    f = np.linspace(0.02 * F1, 12 * F1, 600)
+    f = np.linspace(0.02 * F1, 12 * F1, 300)
     w = 2 * math.pi * f
-    N = 400
+    N = 2000
     n = np.arange(1, N + 1)
     kn = (2 * n - 1) * math.pi / (2 * L)
     wn = kn * C
@@ -382,7 +381,7 @@ def test_rayleigh_damped_bar_equals_modal_series():
         print(f"\n[Rayleigh modal series (Chopra)] max rel err "
               f"{(err / np.abs(ref)).max():.2e}, max bound/|H| "
               f"{(bound[:, None] / np.abs(ref)).max():.2e}, fraction of bound used {used:.2e}")
-        assert (bound[:, None] / np.abs(ref)).max() < 1e-6    # the check has teeth
+        assert (bound[:, None] / np.abs(ref)).max() < 1e-5    # the check has teeth
         assert used <= 1.0
 
 
@@ -399,10 +398,10 @@ def test_rayleigh_acts_on_point_masses_too():
                               "damping": {"model": "rayleigh", "alpha": alpha, "beta": beta}})
     m = RHO * AREA
     r = m * L / M
-    N = 400
+    N = 2000
     roots = np.array([brentq(lambda t: t * math.sin(t) - r * math.cos(t),
                              (j - 1) * math.pi + 1e-14, (j - 1) * math.pi + math.pi / 2,
-                             xtol=1e-15, rtol=4e-16) for j in range(1, N + 1)])
+                             xtol=1e-15, rtol=1e-15) for j in range(1, N + 1)])
     b = roots / L
     Cn = 1 / np.sqrt(m * (L / 2 - np.sin(2 * b * L) / (4 * b)) + M * np.sin(b * L) ** 2)
     wn = b * C
@@ -414,11 +413,11 @@ def test_rayleigh_acts_on_point_masses_too():
     ref = _rayleigh_series(phi_x, phi_y, wn, w, alpha, beta, xs / (E * AREA))
     H = np.asarray(dl.frf(line, f, drive_at=L, response_at=xs))
     # C_n^2 <= 2 / (m L) / (1 - 1/(2 b_n L)) < 4 / (m L) bounds the amplitudes of the tail
-    bound = _rayleigh_tail_bound(w, alpha, beta, lambda j: (j - 1) * math.pi * C / L + 1e-300,
+    bound = _rayleigh_tail_bound(w, alpha, beta, lambda j: (j - 1) * math.pi * C / L,
                                  4 / (m * L), N)
     err = np.abs(H - ref)
     used = (err / (bound[:, None] + 1e-11 * np.abs(ref))).max()
     print(f"\n[Rayleigh with tip mass, modal series (Chopra; Rao)] max rel err "
           f"{(err / np.abs(ref)).max():.2e}, fraction of bound used {used:.2e}")
-    assert (bound[:, None] / np.abs(ref)).max() < 1e-6
+    assert (bound[:, None] / np.abs(ref)).max() < 1e-5
     assert used <= 1.0

@@ -21,11 +21,14 @@ from _reference_tools import check, gauss_points, scan_roots
 # the kind's words: "d" is the Dirichlet end (fixed / ideally open), "n" the
 # Neumann end (free / closed).
 KINDS = {
-    "axial": dict(seg=lambda L, s=1.0: {"length": L, "E": 2.0e11 * s, "rho": 7850.0, "area": 3.0e-4},
+    "axial": dict(seg=lambda L, s=1.0: {"length": L, "E": 2.0e11 * s, "rho": 7850.0,
+                                        "area": 3.0e-4},
                   c=math.sqrt(2.0e11 / 7850.0), m=7850.0 * 3.0e-4, d="fixed", n="free"),
-    "torsion": dict(seg=lambda L, s=1.0: {"length": L, "G": 8.0e10, "rho": 7850.0, "J": 2.0e-8 * s},
+    "torsion": dict(seg=lambda L, s=1.0: {"length": L, "G": 8.0e10, "rho": 7850.0,
+                                          "J": 2.0e-8 * s},
                     c=math.sqrt(8.0e10 / 7850.0), m=7850.0 * 2.0e-8, d="fixed", n="free"),
-    "string": dict(seg=lambda L, s=1.0: {"length": L, "tension": 500.0, "mass_per_length": 0.02 * s},
+    "string": dict(seg=lambda L, s=1.0: {"length": L, "tension": 500.0,
+                                         "mass_per_length": 0.02 * s},
                    c=math.sqrt(500.0 / 0.02), m=0.02, d="fixed", n="free"),
     "duct": dict(seg=lambda L, s=1.0: {"length": L, "area": 2.0e-3 * s},
                  c=343.2, m=2.0e-3 / (1.204 * 343.2 ** 2), d="open", n="closed"),
@@ -45,28 +48,33 @@ def _line(kind, segments, left, right, attachments=()):
 def _uniform_reference(ends: str, c: float, L: float, count: int):
     """Closed-form frequencies (Hz) and shapes phi(x) of a uniform line, unit mass per
     length (Kinsler et al., Fundamentals of Acoustics, 4th ed., ch. 2 and 10; Rao,
-    Mechanical Vibrations, continuous systems). ``ends`` is "dd", "nn", "dn" or "nd"."""
+    Mechanical Vibrations, continuous systems). ``ends`` is "dd", "nn", "dn" or "nd":
+    k_n = n pi / L (dd), (n - 1) pi / L (nn, rigid mode first), (2n - 1) pi / (2L) (dn, nd);
+    sin(k_n x) from a Dirichlet left end, cos(k_n x) from a Neumann one; amplitude
+    sqrt(2 / L), sqrt(1 / L) for the rigid-body mode."""
     n = np.arange(1, count + 1)
     if ends == "dd":
-        f = n * c / (2 * L)
-        shape = lambda x: math.sqrt(2 / L) * np.sin(np.outer(x, n) * math.pi / L)
-        dshape = lambda x: math.sqrt(2 / L) * (n * math.pi / L) * np.cos(np.outer(x, n) * math.pi / L)
+        kn = n * math.pi / L
     elif ends == "nn":
-        f = (n - 1) * c / (2 * L)                        # the rigid-body mode is 0.0 Hz
-        norm = np.where(n == 1, math.sqrt(1 / L), math.sqrt(2 / L))
-        shape = lambda x: norm * np.cos(np.outer(x, n - 1) * math.pi / L)
-        dshape = lambda x: -norm * ((n - 1) * math.pi / L) * np.sin(np.outer(x, n - 1) * math.pi / L)
-    elif ends == "dn":
-        f = (2 * n - 1) * c / (4 * L)
-        kk = (2 * n - 1) * math.pi / (2 * L)
-        shape = lambda x: math.sqrt(2 / L) * np.sin(np.outer(x, kk))
-        dshape = lambda x: math.sqrt(2 / L) * kk * np.cos(np.outer(x, kk))
-    else:  # "nd"
-        f = (2 * n - 1) * c / (4 * L)
-        kk = (2 * n - 1) * math.pi / (2 * L)
-        shape = lambda x: math.sqrt(2 / L) * np.cos(np.outer(x, kk))
-        dshape = lambda x: -math.sqrt(2 / L) * kk * np.sin(np.outer(x, kk))
-    return f, shape, dshape
+        kn = (n - 1) * math.pi / L
+    else:
+        kn = (2 * n - 1) * math.pi / (2 * L)
+    amp = np.full(count, math.sqrt(2 / L))
+    if ends == "nn":
+        amp[0] = math.sqrt(1 / L)
+    if ends[0] == "d":
+        def shape(x):
+            return amp * np.sin(np.outer(x, kn))
+
+        def dshape(x):
+            return amp * kn * np.cos(np.outer(x, kn))
+    else:
+        def shape(x):
+            return amp * np.cos(np.outer(x, kn))
+
+        def dshape(x):
+            return -amp * kn * np.sin(np.outer(x, kn))
+    return kn * c / (2 * math.pi), shape, dshape
 
 
 def _stiffness_and_mass(kind, seg):
@@ -359,3 +367,60 @@ def test_mass_orthonormality_of_a_loaded_stepped_line():
           atol=1e-8)
     # no spring to ground at the ends, but one at x = 1.4: no rigid-body mode
     assert ms.frequencies[0] > 0.0
+
+
+# --------------------------------------------------------------- grounded absorber
+def _grounded_absorber_line(factor):
+    # fixed-fixed string with an absorber attached at the fixed end: the absorber is an
+    # oscillator on rigid ground, decoupled from the string
+    T, mu, L, ma = 200.0, 0.01, 1.0, 0.005
+    w1 = math.pi * math.sqrt(T / mu) / L
+    spec = {"kind": "string", "segments": [{"length": L, "tension": T, "mass_per_length": mu}],
+            "ends": {"left": "fixed", "right": "fixed"},
+            "attachments": [{"at": 0.0,
+                             "absorber": {"mass": ma, "stiffness": ma * (factor * w1) ** 2}}]}
+    return dl.Line.from_dict(spec), math.sqrt(T / mu), L, mu, ma
+
+
+def test_absorber_on_a_fixed_end_frequencies():
+    # The spectrum is the union of the string's n c / 2L (Kinsler) and the grounded
+    # oscillator's sqrt(k/m) (here 2.5 c / 2L)
+    line, c, L, mu, ma = _grounded_absorber_line(2.5)
+    ref = np.array([1.0, 2.0, 2.5, 3.0, 4.0]) * c / (2 * L)
+    check("grounded absorber f_n (Kinsler; SDOF)", dl.natural_frequencies(line, 5), ref, rtol=1e-12)
+
+
+def test_absorber_on_a_fixed_end_modes():
+    # Expected (Rao; SDOF): the absorber mode has the string at rest and q = 1/sqrt(m);
+    # the string modes are sqrt(2/(mu L)) sin(n pi x / L) with the absorber at rest.
+    line, c, L, mu, ma = _grounded_absorber_line(2.5)
+    ms = dl.modes(line, 4)                 # f = (1, 2, 2.5, 3) c / 2L
+    x = np.linspace(0.0, L, 41)
+    n = np.array([1.0, 2.0, 0.0, 3.0])
+    ref = math.sqrt(2 / (mu * L)) * np.sin(np.outer(x, n) * math.pi / L)
+    got = ms.shape(x)
+    sign = np.where(np.sum(got * ref, axis=0) < 0, -1.0, 1.0)
+    check("grounded absorber mode shapes", got * sign, ref, rtol=0, atol=1e-8 * ref.max())
+    q = np.abs(ms.absorber_amplitudes[:, 0])
+    check("grounded absorber amplitudes", q, [0.0, 0.0, 1 / math.sqrt(ma), 0.0], rtol=0, atol=1e-8)
+
+
+# regression: the single interior DOF's dynamic stiffness row vanishes at these roots
+@pytest.mark.parametrize("length,E,area,count",
+                         [(0.1366606327231958, 349420139610.6146, 9.9999e-05, 6),
+                          (0.8127792933436194, 231038609940.76074, 1.0e-4, 8)])
+def test_uniform_fixed_fixed_bar_modes_regression(length, E, area, count):
+    # Found by test_properties.py::test_modes_are_mass_orthonormal: a plain uniform
+    # fixed-fixed bar; expected sqrt(2/(m L)) sin(n pi x / L) (Rao), mass-orthonormal.
+    rho = 7850.0
+    line = dl.Line.from_dict({"kind": "axial",
+                              "segments": [{"length": length, "E": E, "rho": rho, "area": area}],
+                              "ends": {"left": "fixed", "right": "fixed"}})
+    ms = dl.modes(line, count)
+    f_ref, shape, _ = _uniform_reference("dd", math.sqrt(E / rho), length, count)
+    x = np.linspace(0.0, length, 41)
+    ref = shape(x) / math.sqrt(rho * area)
+    got = ms.shape(x)
+    sign = np.where(np.sum(got * ref, axis=0) < 0, -1.0, 1.0)
+    check("uniform fixed-fixed regression shapes (Rao)", got * sign, ref, rtol=0,
+          atol=1e-8 * np.abs(ref).max())

@@ -65,6 +65,8 @@ def check_position(line: Line, key: str, x) -> np.ndarray:
     for v in xs:
         if not np.isfinite(v) or v < -tol or v > L + tol:
             raise ModelError(key, float(v), "m", f"is off the line (0 to {L:g} m)")
+    # positions within END_SNAP * L of an end are that end
+    xs = np.where(xs <= tol, 0.0, np.where(xs >= L - tol, L, xs))
     return np.clip(xs, 0.0, L)
 
 

@@ -260,8 +260,10 @@ def _mode_vectors(counter: _Counter, omega: np.ndarray, n_rigid: int) -> np.ndar
         w = omega[el]
         K, _ = assemble(mesh, w, damped=False)
         Kf = K[:, free[:, None], free[None, :]]
-        # symmetric row-norm scaling (a diagonal entry can cancel to ~0 at a root)
-        d = np.sqrt(np.abs(Kf).max(axis=2)) + 1e-300
+        # symmetric row-norm scaling, rows taken over all DOFs (held ones included):
+        # the diagonal, or even the whole free row, can cancel to ~0 at a root
+        rowmax = np.abs(K[:, free, :]).max(axis=2)
+        d = np.sqrt(np.maximum(rowmax, 1e-8 * rowmax.max(axis=1, keepdims=True))) + 1e-300
         Ks = Kf / d[:, :, None] / d[:, None, :]
         ev, vec = np.linalg.eigh(Ks)
         order = np.argsort(np.abs(ev), axis=1)

@@ -1,7 +1,8 @@
 """The second-order families: parameters -> wave number, impedance, variable names and units.
 
 Every second-order line obeys (S u')' + w^2 m u = 0 on each uniform segment,
-with the "stiffness" S and "mass per length" m of its kind:
+with the "stiffness" S and "mass per length" m of its kind (a bending line,
+kind "bending", obeys EI w = w^2 m w with S = EI and m = rho A):
 
 ========  =====================  ==========================  ====================
 kind      variable u             S                           m
@@ -59,6 +60,8 @@ FAMILIES = {
     "string": Family("string", "transverse displacement", "m", "transverse force", "N",
                      "sqrt(T/mu)"),
     "duct": Family("duct", "pressure", "Pa", "volume velocity", "m^3/s", "c"),
+    "bending": Family("bending", "transverse displacement", "m", "shear force", "N",
+                      "sqrt(w) (EI/(rho A))^(1/4)"),
 }
 
 #: end corrections as a fraction of the pipe radius: unflanged (Levine and
@@ -85,11 +88,14 @@ def static_coefficients(kind: str, seg: Segment) -> tuple[float, float]:
         rho = seg.rho if seg.rho is not None else AIR["rho"]
         c = seg.c if seg.c is not None else AIR["c"]
         return seg.area / rho, seg.area / (rho * c * c)
+    if kind == "bending":
+        return seg.E * seg.I, seg.rho * seg.area
     raise AssertionError(kind)
 
 
 def wave_speed(kind: str, seg: Segment) -> float:
-    """Undamped phase speed (m/s) of a segment."""
+    """Undamped phase speed (m/s) of a second-order segment (bending waves are
+    dispersive: their speed is sqrt(w) (EI/m)^(1/4))."""
     S, m = static_coefficients(kind, seg)
     return math.sqrt(S / m)
 

@@ -335,7 +335,8 @@ BAD_MODELS = {
     "unknown kind": (edited(BAR, kind="beam"), "kind", "'beam'", "", "unknown kind"),
     "kind not a word": (edited(BAR, kind=3), "kind", "3", "", "word"),
     "missing kind": (edited(BAR, kind=None), "kind", "None", "", "required"),
-    "bending not yet": (edited(BAR, kind="bending"), "kind", "'bending'", "", "not available"),
+    "bending without I": (edited(BAR, kind="bending"), "segments[0].I", "None", "m^4",
+                          "required"),
     "closed on axial": (edited(BAR, ends={"left": "closed"}), "ends.left", "'closed'", "",
                         "not an end of kind 'axial'"),
     "fixed on duct": (edited(PIPE, ends={"right": "fixed"}), "ends.right", "'fixed'", "",
@@ -475,8 +476,8 @@ def test_direct_construction_is_validated_too():
         dl.Line(kind="axial", segments=(seg,))
     assert_names(excinfo, "segments[0].length", "-0.1", "m")
     with pytest.raises(ModelError) as excinfo:
-        dl.Line(kind="bending", segments=(seg,))
-    assert "not available" in str(excinfo.value)
+        dl.Line(kind="bending", segments=(dl.Segment(length=0.1, E=2e11, rho=7800.0, area=1e-4),))
+    assert_names(excinfo, "segments[0].I", "None", "m^4")
     with pytest.raises(ModelError) as excinfo:
         dl.Line(kind="axial", segments=())
     assert excinfo.value.key == "segments"

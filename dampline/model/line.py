@@ -14,15 +14,14 @@ from dataclasses import dataclass, field
 from typing import Any, Literal, Mapping, Union
 
 from ..errors import ModelError
+from .sections import SHAPES, Section
 
 __all__ = [
     "KINDS", "AIR", "Segment", "EndTable", "Absorber", "Attachment", "Damping", "Line",
 ]
 
 Kind = Literal["axial", "torsion", "string", "duct", "bending"]
-KINDS: tuple[str, ...] = ("axial", "torsion", "string", "duct")
-#: kinds the contract names that this version does not solve yet
-_PLANNED_KINDS = ("bending",)
+KINDS: tuple[str, ...] = ("axial", "torsion", "string", "duct", "bending")
 
 #: gas properties of air at 20 C (common practice); duct segments default to these
 AIR = {"rho": 1.204, "c": 343.2, "viscosity": 1.81e-5, "gamma": 1.4, "prandtl": 0.71}
@@ -35,27 +34,41 @@ _SEGMENT_REQUIRED = {
     "torsion": ("length", "G", "rho", "J"),
     "string": ("length", "tension", "mass_per_length"),
     "duct": ("length", "area"),
+    "bending": ("length", "E", "rho", "area", "I"),
 }
 _SEGMENT_OPTIONAL = {
-    "axial": ("eta",),
-    "torsion": ("eta",),
+    "axial": ("eta", "section"),
+    "torsion": ("eta", "section"),
     "string": ("eta",),
-    "duct": ("rho", "c", "eta", "viscosity", "gamma", "prandtl"),
+    "duct": ("rho", "c", "eta", "viscosity", "gamma", "prandtl", "section"),
+    "bending": ("eta", "section"),
 }
 SEGMENT_KEYS = ("length", "E", "G", "rho", "area", "I", "J", "tension",
                 "mass_per_length", "c", "eta", "viscosity", "gamma", "prandtl")
+#: section shapes each kind accepts, and the properties a section fills in
+_SECTION_SHAPES = {"axial": tuple(SHAPES), "bending": tuple(SHAPES),
+                   "torsion": ("circle", "tube"), "duct": ("circle",)}
+_SECTION_FILLS = {"axial": ("area",), "bending": ("area", "I"), "torsion": ("J",),
+                  "duct": ("area",)}
 
 END_WORDS = {
     "axial": ("fixed", "free"),
     "torsion": ("fixed", "free"),
     "string": ("fixed", "free"),
     "duct": ("closed", "open", "anechoic", "unflanged", "flanged"),
+    "bending": ("clamped", "pinned", "free", "sliding"),
 }
+#: keys of an end table, and of point attachments, per kind
+_END_TABLE_KEYS = {k: ("spring", "mass", "dashpot") for k in END_WORDS}
+_END_TABLE_KEYS["bending"] = ("spring", "mass", "dashpot", "rot_spring", "rot_inertia")
+_ATTACHMENT_KEYS = {k: ("at", "mass", "spring", "dashpot", "absorber") for k in END_WORDS}
+_ATTACHMENT_KEYS["bending"] = _ATTACHMENT_KEYS["axial"] + ("rot_spring", "rot_inertia")
 _DEFAULT_ENDS = {
     "axial": ("free", "free"),
     "torsion": ("free", "free"),
     "string": ("fixed", "fixed"),
     "duct": ("closed", "closed"),
+    "bending": ("clamped", "free"),
 }
 DAMPING_MODELS = ("none", "modal", "rayleigh", "loss_factor")
 _DAMPING_KEYS = {
@@ -138,9 +151,29 @@ class Segment:
     viscosity: float | None = None
     gamma: float | None = None
     prandtl: float | None = None
+    section: Section | None = None
 
-    def to_dict(self) -> dict[str, float]:
-        return {k: v for k, v in dataclasses.asdict(self).items() if v is not None}
+    @property
+    def fibre(self) -> float | None:
+        """Outer-fibre distance (m) when a section gives it."""
+        return self.section.fibre if self.section is not None else None
+
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {}
+        derived = ()
+        if self.section is not None:
+            derived = ("area", "I", "J")
+        for f in dataclasses.fields(self):
+            v = getattr(self, f.name)
+            if v is None or f.name == "section" or (f.name in derived and self._derived(f.name)):
+                continue
+            out[f.name] = v
+        if self.section is not None:
+            out["section"] = self.section.to_dict()
+        return out
+
+    def _derived(self, key: str) -> bool:
+        return getattr(self.section, key, None) == getattr(self, key)
 
 
 @dataclass(frozen=True)
@@ -150,10 +183,14 @@ class EndTable:
     spring: float = 0.0
     mass: float = 0.0
     dashpot: float = 0.0
+    rot_spring: float = 0.0     # bending only
+    rot_inertia: float = 0.0    # bending only
     given: tuple[str, ...] = field(default=(), compare=False, repr=False)
 
     def to_dict(self) -> dict[str, float]:
-        keys = self.given or ("spring", "mass", "dashpot")
+        keys = self.given or tuple(k for k in ("spring", "mass", "dashpot", "rot_spring",
+                                               "rot_inertia") if getattr(self, k) or k in
+                                   ("spring", "mass", "dashpot"))
         return {k: getattr(self, k) for k in keys}
 
 
@@ -184,10 +221,12 @@ class Attachment:
     spring: float | None = None
     dashpot: float | None = None
     absorber: Absorber | None = None
+    rot_spring: float | None = None     # bending only
+    rot_inertia: float | None = None    # bending only
 
     def to_dict(self) -> dict[str, Any]:
         out: dict[str, Any] = {"at": self.at}
-        for k in ("mass", "spring", "dashpot"):
+        for k in ("mass", "spring", "dashpot", "rot_spring", "rot_inertia"):
             if getattr(self, k) is not None:
                 out[k] = getattr(self, k)
         if self.absorber is not None:
@@ -240,9 +279,6 @@ class Line:
     # ------------------------------------------------------------ validation
     def __post_init__(self) -> None:
         kind = self.kind
-        if kind in _PLANNED_KINDS:
-            raise ModelError("kind", kind, "", "bending lines are not available in this version "
-                             f"(available: {', '.join(KINDS)})")
         if kind not in KINDS:
             raise ModelError("kind", kind, "", f"unknown kind (use one of {', '.join(KINDS)})")
         object.__setattr__(self, "segments", tuple(self.segments))
@@ -270,6 +306,23 @@ class Line:
             raise ModelError(where, seg, "", "must be a Segment")
         required = _SEGMENT_REQUIRED[kind]
         allowed = required + _SEGMENT_OPTIONAL[kind]
+        if seg.section is not None:
+            sec = seg.section
+            if "section" not in allowed:
+                raise ModelError(f"{where}.section", sec, "", f"kind {kind!r} takes no section")
+            if not isinstance(sec, Section):
+                raise ModelError(f"{where}.section", sec, "", "must be a Section")
+            if sec.shape not in _SECTION_SHAPES[kind]:
+                raise ModelError(f"{where}.section.shape", sec.shape, "",
+                                 f"kind {kind!r} takes {', '.join(_SECTION_SHAPES[kind])} sections")
+            for k in _SECTION_FILLS[kind]:
+                v = getattr(seg, k)
+                if v is None:
+                    object.__setattr__(seg, k, getattr(sec, k))
+                elif not math.isclose(v, getattr(sec, k), rel_tol=1e-12):
+                    raise ModelError(f"{where}.{k}", v, unit_of(k, kind),
+                                     f"conflicts with the section ({getattr(sec, k):.6g}); "
+                                     "give one or the other")
         for k in SEGMENT_KEYS:
             v = getattr(seg, k)
             key = f"{where}.{k}"
@@ -298,12 +351,16 @@ class Line:
                                  f"not a duct end (use {', '.join(END_WORDS['duct'])})")
             return
         if not isinstance(end, EndTable):
-            raise ModelError(key, end, "", "must be an end word or a table of spring, mass, dashpot")
+            raise ModelError(key, end, "", "must be an end word or a table of "
+                             f"{', '.join(_END_TABLE_KEYS[self.kind])}")
         if self.kind == "duct":
             raise ModelError(key, end.to_dict(), "", "duct ends take a word "
                              f"({', '.join(END_WORDS['duct'])}), not a table")
-        for k in ("spring", "mass", "dashpot"):
-            _number(f"{key}.{k}", getattr(end, k), self.kind, allow_zero=True)
+        for k in ("spring", "mass", "dashpot", "rot_spring", "rot_inertia"):
+            v = _number(f"{key}.{k}", getattr(end, k), self.kind, allow_zero=True)
+            if v and k not in _END_TABLE_KEYS[self.kind]:
+                raise ModelError(f"{key}.{k}", v, unit_of(k, self.kind),
+                                 f"is for bending lines, not kind {self.kind!r}")
 
     def _check_attachment(self, i: int, att: Attachment, L: float) -> None:
         where = f"attachments[{i}]"
@@ -320,11 +377,17 @@ class Line:
             raise ModelError(f"{where}.at", att.at, "m", f"is off the line (length {L:g} m)")
         snapped = 0.0 if at <= tol else (L if abs(at - L) <= tol else at)
         object.__setattr__(att, "at", snapped)
-        if att.mass is None and att.spring is None and att.dashpot is None and att.absorber is None:
-            raise ModelError(where, att.to_dict(), "", "needs mass, spring, dashpot or absorber")
-        for k in ("mass", "spring", "dashpot"):
+        elements = ("mass", "spring", "dashpot", "rot_spring", "rot_inertia")
+        if all(getattr(att, k) is None for k in elements) and att.absorber is None:
+            names = _ATTACHMENT_KEYS[kind][1:]
+            raise ModelError(where, att.to_dict(), "", "needs "
+                             f"{', '.join(names[:-1])} or {names[-1]}")
+        for k in elements:
             if getattr(att, k) is not None:
                 _number(f"{where}.{k}", getattr(att, k), kind, allow_zero=True)
+                if k not in _ATTACHMENT_KEYS[kind]:
+                    raise ModelError(f"{where}.{k}", getattr(att, k), unit_of(k, kind),
+                                     f"is for bending lines, not kind {kind!r}")
         if att.absorber is not None:
             a = att.absorber
             if not isinstance(a, Absorber):
@@ -402,7 +465,7 @@ class Line:
             raise ModelError("kind", None, "", f"is required (one of {', '.join(KINDS)})")
         if not isinstance(kind, str):
             raise ModelError("kind", kind, "", "must be a word")
-        if kind in _PLANNED_KINDS or kind not in KINDS:
+        if kind not in KINDS:
             cls._raise_kind(kind)
         _check_keys("model", spec, top, kind)
         title = spec.get("title", "")
@@ -422,9 +485,12 @@ class Line:
             if kind == "duct":
                 values.setdefault("rho", AIR["rho"])
                 values.setdefault("c", AIR["c"])
+            section = None
+            if "section" in values:
+                section = Section.from_dict(values.pop("section"), f"segments[{i}].section")
             for k, v in values.items():
                 _number(f"segments[{i}].{k}", v, kind, allow_zero=(k == "eta"))
-            segments.append(Segment(**{k: float(v) for k, v in values.items()}))
+            segments.append(Segment(section=section, **{k: float(v) for k, v in values.items()}))
 
         raw_ends = spec.get("ends", {})
         _check_keys("ends", raw_ends, ("left", "right"), kind)
@@ -438,13 +504,13 @@ class Line:
         attachments = []
         for i, raw in enumerate(raw_atts):
             where = f"attachments[{i}]"
-            _check_keys(where, raw, ("at", "mass", "spring", "dashpot", "absorber"), kind)
+            _check_keys(where, raw, _ATTACHMENT_KEYS[kind], kind)
             if "at" not in raw:
                 raise ModelError(f"{where}.at", None, "m", "is required")
             # 'at' has no sign check here: Line range-checks it and snaps it to an end
             vals = {k: _number(f"{where}.{k}", raw[k], kind, allow_zero=(k != "at"),
                                positive=(k != "at"))
-                    for k in ("at", "mass", "spring", "dashpot") if k in raw}
+                    for k in _ATTACHMENT_KEYS[kind] if k in raw and k != "absorber"}
             absorber = None
             if "absorber" in raw:
                 a = raw["absorber"]
@@ -470,9 +536,6 @@ class Line:
 
     @staticmethod
     def _raise_kind(kind: str) -> None:
-        if kind in _PLANNED_KINDS:
-            raise ModelError("kind", kind, "", "bending lines are not available in this version "
-                             f"(available: {', '.join(KINDS)})")
         raise ModelError("kind", kind, "", f"unknown kind (use one of {', '.join(KINDS)})")
 
     @staticmethod
@@ -484,12 +547,14 @@ class Line:
             if kind == "duct":
                 raise ModelError(key, dict(raw), "", "duct ends take a word "
                                  f"({', '.join(END_WORDS['duct'])}), not a table")
-            _check_keys(key, raw, ("spring", "mass", "dashpot"), kind)
+            allowed = _END_TABLE_KEYS[kind]
+            _check_keys(key, raw, allowed, kind)
             if not raw:
-                raise ModelError(key, {}, "", "an end table needs spring, mass or dashpot")
+                raise ModelError(key, {}, "", f"an end table needs {', '.join(allowed)}")
             vals = {k: _number(f"{key}.{k}", v, kind, allow_zero=True) for k, v in raw.items()}
-            return EndTable(given=tuple(k for k in ("spring", "mass", "dashpot") if k in vals), **vals)
-        raise ModelError(key, raw, "", "must be an end word or a table of spring, mass, dashpot")
+            return EndTable(given=tuple(k for k in allowed if k in vals), **vals)
+        raise ModelError(key, raw, "", "must be an end word or a table of "
+                         f"{', '.join(_END_TABLE_KEYS[kind])}")
 
     @staticmethod
     def _damping_from(raw: Any, kind: str) -> Damping:

@@ -20,7 +20,8 @@ from ..families import FAMILIES
 from ..model.line import END_SNAP, Line
 from ..results import FRF
 from .banded import tridiagonal_solve
-from .mesh import Mesh, assemble_tridiagonal, build_mesh, dirichlet_nodes
+from .mesh import (Mesh, assemble, assemble_tridiagonal, build_mesh, free_dofs, held_dofs,
+                   interior_field, piece_wavenumbers)
 
 __all__ = ["frf", "Drive", "Quantity"]
 
@@ -28,10 +29,14 @@ Drive = Literal["force", "moment", "velocity", "volume_velocity"]
 Quantity = Literal["receptance", "mobility", "accelerance", "force",
                    "pressure", "velocity", "volume_velocity"]
 
+_DRIVES = {"duct": ("volume_velocity", "velocity"), "bending": ("force", "moment", "velocity")}
 _STRUCT_DRIVES = ("force", "velocity")
-_DUCT_DRIVES = ("volume_velocity", "velocity")
+_QUANTITIES = {
+    "duct": ("pressure", "velocity", "volume_velocity"),
+    "bending": ("receptance", "mobility", "accelerance", "rotation", "moment", "shear",
+                "force", "stress"),
+}
 _STRUCT_QUANTITIES = ("receptance", "mobility", "accelerance", "force")
-_DUCT_QUANTITIES = ("pressure", "velocity", "volume_velocity")
 
 
 def check_frequencies(freqs_hz) -> np.ndarray:
@@ -78,26 +83,33 @@ def quantity_unit(kind: str, quantity: str, drive: str) -> str:
         return f"{num}/({den})"
     u = fam.unit
     num = {"receptance": u, "mobility": f"{u}/s", "accelerance": f"{u}/s^2",
-           "force": fam.force_unit}[quantity]
-    den = {"force": fam.force_unit, "velocity": f"{u}/s"}[drive]
+           "force": fam.force_unit, "rotation": "rad", "moment": "N m", "shear": "N",
+           "stress": "Pa"}[quantity]
+    den = {"force": fam.force_unit, "velocity": f"{u}/s", "moment": "N m"}[drive]
     return f"{num}/({den})" if (" " in den or "/" in den) else f"{num}/{den}"
 
 
 def check_request(line: Line, drive: str, quantity: str | None, drive_at) -> tuple[str, str, float, int | None]:
     """Validate drive, quantity and drive point; returns (drive, quantity, x, end side)."""
     duct = line.kind == "duct"
-    drives = _DUCT_DRIVES if duct else _STRUCT_DRIVES
-    if drive == "moment":
+    drives = _DRIVES.get(line.kind, _STRUCT_DRIVES)
+    if drive == "moment" and line.kind != "bending":
         raise ModelError("drive", drive, "", f"a moment drives bending lines; kind {line.kind!r} "
                          f"takes {', '.join(drives)}")
     if drive not in drives:
         raise ModelError("drive", drive, "", f"kind {line.kind!r} takes {', '.join(drives)}")
-    quantities = _DUCT_QUANTITIES if duct else _STRUCT_QUANTITIES
+    quantities = _QUANTITIES.get(line.kind, _STRUCT_QUANTITIES)
     if quantity is None:
         quantity = "pressure" if duct else "receptance"
     if quantity not in quantities:
         raise ModelError("quantity", quantity, "", f"kind {line.kind!r} gives "
                          f"{', '.join(quantities)}")
+    if quantity == "stress":
+        for i, seg in enumerate(line.segments):
+            if seg.fibre is None:
+                raise ModelError(f"segments[{i}].section", None, "",
+                                 "bending stress needs the outer-fibre distance: give the "
+                                 "segment a section (circle, tube or rectangle)")
     try:
         xd = float(drive_at)
     except (TypeError, ValueError):
@@ -169,22 +181,37 @@ def frf(line: Line, freqs_hz, drive_at: float = 0.0, response_at=(0.0,), drive: 
 def _exact(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, quantity: str,
            side: int | None) -> np.ndarray:
     omega = 2.0 * math.pi * f
-    duct = line.kind == "duct"
     mesh = build_mesh(line, extra=(xd,))
-    nn = mesh.n_nodes
-    # an imposed velocity replaces the driven end's own condition
+    # an imposed velocity replaces the driven end's own (translational) condition
     replaced = (side == 0, side == 1)
-    diag, off, S, k = assemble_tridiagonal(mesh, omega, ends=(not replaced[0], not replaced[1]))
-    nf = omega.size
+    if mesh.dpn == 1:
+        U, S, k = _solve_second_order(mesh, omega, xd, drive, side, replaced)
+    else:
+        U, S, k = _solve_dense(mesh, omega, xd, drive, side, replaced)
+    bad = ~np.isfinite(U).all(axis=1)
+    if bad.any():
+        # exactly singular only at an undamped resonance hit to the last bit:
+        # the physics is infinite there, and we say so
+        U[bad] = complex(np.inf, np.inf)
+        warnings.warn(f"undamped resonance exactly at {f[bad][:5].tolist()} Hz: the response "
+                      "there is infinite (returned as inf)", RuntimeWarning, stacklevel=3)
+    return _response(mesh, omega, S, k, U, xr, quantity)
+
+
+def _solve_second_order(mesh: Mesh, omega, xd, drive, side, replaced):
+    """Tridiagonal path: absorbers condensed, held nodes only at the ends."""
+    line = mesh.line
+    nn, nf = mesh.n_nodes, omega.size
+    diag, off, S, k = assemble_tridiagonal(mesh, omega, replaced=replaced)
     U = np.zeros((nf, nn), dtype=complex)
     rhs = np.zeros((nf, nn), dtype=complex)
     node_d = mesh.node_at(xd)
-    held = set(i % nn for i in dirichlet_nodes(line, replaced))
+    held = set(held_dofs(mesh, replaced))
     if drive == "force":
         rhs[:, node_d] = 1.0
     elif drive == "volume_velocity":
         rhs[:, node_d] = 1j * omega              # analogue load of a source Q: i w Q
-    elif duct:                                   # piston at an end, velocity along +x
+    elif line.kind == "duct":                    # piston at an end, velocity along +x
         area = line.segments[0 if side == 0 else -1].area
         rhs[:, node_d] = 1j * omega * area * (1.0 if side == 0 else -1.0)
     else:                                        # structure: imposed displacement 1/(i w)
@@ -196,59 +223,89 @@ def _exact(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, qua
     lo = 1 if 0 in held else 0
     hi = nn - 1 if (nn - 1) in held else nn
     if hi > lo:
-        U[:, lo:hi] = _solve(off[:, lo:hi - 1], diag[:, lo:hi], rhs[:, lo:hi], f)
-    return _interior(mesh, omega, S, k, U, xr, quantity)
+        with np.errstate(all="ignore"):
+            U[:, lo:hi] = tridiagonal_solve(off[:, lo:hi - 1], diag[:, lo:hi], off[:, lo:hi - 1],
+                                            rhs[:, lo:hi])
+    return U, S, k
 
 
-def _solve(off: np.ndarray, diag: np.ndarray, rhs: np.ndarray, f: np.ndarray) -> np.ndarray:
-    x = tridiagonal_solve(off, diag, off, rhs)
-    bad = ~np.isfinite(x).all(axis=1)
-    if bad.any():
-        # exactly singular only at an undamped resonance hit to the last bit:
-        # the physics is infinite there, and we say so
-        x[bad] = complex(np.inf, np.inf)
-        warnings.warn(f"undamped resonance exactly at {f[bad][:5].tolist()} Hz: the response "
-                      "there is infinite (returned as inf)", RuntimeWarning, stacklevel=4)
-    return x
+#: frequencies per dense block: keeps the (block, n, n) arrays small and warm in memory
+_BLOCK = 256
 
 
-def interior_weights(S, k, h, xi, derivative: bool):
-    """Exact interior solution of a piece: u(xi) = A u_a + B u_b (or u', with
-    ``derivative``), in scaled exponential form (Im k <= 0) so that a large
-    imaginary k h cannot overflow."""
-    den = -np.expm1(-2j * k * h)
-    ea = np.exp(-1j * k * xi)
-    eb = np.exp(-1j * k * (h - xi))
-    if not derivative:
-        A = ea * (-np.expm1(-2j * k * (h - xi))) / den
-        B = eb * (-np.expm1(-2j * k * xi)) / den
-        return A, B
-    A = -1j * k * (ea + ea * eb * eb) / den
-    B = 1j * k * (eb + eb * ea * ea) / den
-    return A, B
+def _solve_dense(mesh: Mesh, omega, xd, drive, side, replaced):
+    """Bending path: dense blocks of frequencies, one batched LAPACK solve per block."""
+    nf, n = omega.size, mesh.n_dof
+    U = np.zeros((nf, n), dtype=complex)
+    node_d = mesh.node_at(xd)
+    held = held_dofs(mesh, replaced)
+    prescribed = None
+    if drive == "velocity":
+        prescribed = mesh.dpn * node_d
+        held = held + [prescribed]
+    free = free_dofs(mesh, held)
+    load = mesh.dpn * node_d + (1 if drive == "moment" else 0)
+    S_all, k_all = [], []
+    for a in range(0, nf, _BLOCK):
+        w = omega[a:a + _BLOCK]
+        K, _ = assemble(mesh, w, damped=True, replaced=replaced)
+        rhs = np.zeros((w.size, n), dtype=complex)
+        if prescribed is None:
+            rhs[:, load] = 1.0
+        else:
+            U[a:a + _BLOCK, prescribed] = 1.0 / (1j * w)
+            rhs -= K[:, :, prescribed] * U[a:a + _BLOCK, prescribed, None]
+        Kf = K[:, free[:, None], free[None, :]]
+        U[a:a + _BLOCK, free] = _dense_solve(Kf, rhs[:, free])
+        S, k = piece_wavenumbers(mesh, w, True)
+        S_all.append(S)
+        k_all.append(k)
+    return U, np.concatenate(S_all), np.concatenate(k_all)
 
 
-def _interior(mesh: Mesh, omega: np.ndarray, S: np.ndarray, k: np.ndarray, Un: np.ndarray,
+def _dense_solve(A: np.ndarray, b: np.ndarray) -> np.ndarray:
+    try:
+        return np.linalg.solve(A, b[..., None])[..., 0]
+    except np.linalg.LinAlgError:
+        # an exactly singular block (undamped resonance to the last bit): solve the
+        # others one at a time and leave inf where the physics is infinite
+        out = np.empty_like(b)
+        for i in range(A.shape[0]):
+            try:
+                out[i] = np.linalg.solve(A[i], b[i])
+            except np.linalg.LinAlgError:
+                out[i] = complex(np.inf, np.inf)
+        return out
+
+
+def _response(mesh: Mesh, omega: np.ndarray, S: np.ndarray, k: np.ndarray, U: np.ndarray,
               xr: np.ndarray, quantity: str) -> np.ndarray:
+    """The requested quantity at the response points from the exact interior solution."""
     p, xi = mesh.locate(xr)
-    S, k = S[:, p], k[:, p]
-    h = mesh.piece_h[p]
-    ua, ub = Un[:, p], Un[:, p + 1]
     w = omega[:, None]
+    Sp = S[:, p]
     if quantity in ("receptance", "mobility", "accelerance", "pressure"):
-        A, B = interior_weights(S, k, h, xi, derivative=False)
-        u = A * ua + B * ub
+        u = interior_field(mesh, S, k, U, p, xi, 0)
         if quantity == "mobility":
             return 1j * w * u
         if quantity == "accelerance":
             return -w * w * u
         return u
-    A, B = interior_weights(S, k, h, xi, derivative=True)
-    N = S * (A * ua + B * ub)
+    if mesh.dpn == 2:
+        if quantity == "rotation":
+            return interior_field(mesh, S, k, U, p, xi, 1)
+        if quantity in ("moment", "stress"):
+            M = Sp * interior_field(mesh, S, k, U, p, xi, 2)      # M = EI w''
+            if quantity == "moment":
+                return M
+            segs = [mesh.line.segments[s] for s in mesh.piece_seg[p]]
+            return M * np.array([sg.fibre / sg.I for sg in segs])   # sigma = M c / I
+        return -Sp * interior_field(mesh, S, k, U, p, xi, 3)     # shear V = -EI w'''
+    N = Sp * interior_field(mesh, S, k, U, p, xi, 1)
     if quantity == "force":
         return N
-    U = 1j * N / w                          # volume velocity from N = -i w U
+    Q = 1j * N / w                          # volume velocity from N = -i w U
     if quantity == "volume_velocity":
-        return U
+        return Q
     area = np.array([mesh.line.segments[s].area for s in mesh.piece_seg[p]])
-    return U / area
+    return Q / area

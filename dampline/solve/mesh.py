@@ -29,6 +29,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..families import radiation_end_correction, segment_coefficients, static_coefficients
+from . import beam
 from ..model.line import AIR, END_SNAP, Absorber, EndTable, Line
 
 GOLDEN = 0.5 * (math.sqrt(5.0) - 1.0)
@@ -36,8 +37,8 @@ GOLDEN = 0.5 * (math.sqrt(5.0) - 1.0)
 
 @dataclass(frozen=True, eq=False)
 class Mesh:
-    """Nodes and pieces of a line; DOF 0..n_nodes-1 are the nodes in order,
-    absorber masses follow as DOFs n_nodes, n_nodes+1, ..."""
+    """Nodes and pieces of a line. DOFs: ``dpn`` per node in node order (bending:
+    displacement then slope), then one per absorber mass."""
 
     line: Line
     x: np.ndarray             # node positions (m)
@@ -45,15 +46,21 @@ class Mesh:
     piece_x0: np.ndarray      # left end of each piece (m)
     piece_h: np.ndarray       # piece length (m)
     absorbers: tuple[tuple[int, Absorber], ...]
-    lumped: tuple[tuple[int, float, float, float], ...]  # (node, mass, spring, dashpot)
+    # (node, mass, spring, dashpot, rot_inertia, rot_spring)
+    lumped: tuple[tuple[int, float, float, float, float, float], ...]
+    dpn: int = 1
     n_dof: int = field(init=False)
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "n_dof", len(self.x) + len(self.absorbers))
+        object.__setattr__(self, "n_dof", self.dpn * len(self.x) + len(self.absorbers))
 
     @property
     def n_nodes(self) -> int:
         return len(self.x)
+
+    @property
+    def n_line_dofs(self) -> int:
+        return self.dpn * len(self.x)
 
     def node_at(self, x: float) -> int:
         i = int(np.argmin(np.abs(self.x - x)))
@@ -97,45 +104,66 @@ def build_mesh(line: Line, extra: tuple[float, ...] = ()) -> Mesh:
     x[-1] = L
     lumped: dict[int, list[float]] = {}
     absorbers = []
-
-    def node(pos: float) -> int:
-        return int(np.argmin(np.abs(x - pos)))
-
     for att in line.attachments:
-        n = node(att.at)
-        acc = lumped.setdefault(n, [0.0, 0.0, 0.0])
-        acc[0] += att.mass or 0.0
-        acc[1] += att.spring or 0.0
-        acc[2] += att.dashpot or 0.0
+        n = int(np.argmin(np.abs(x - att.at)))
+        acc = lumped.setdefault(n, [0.0] * 5)
+        for j, k in enumerate(("mass", "spring", "dashpot", "rot_inertia", "rot_spring")):
+            acc[j] += getattr(att, k) or 0.0
         if att.absorber is not None:
             absorbers.append((n, att.absorber))
     return Mesh(line=line, x=x, piece_seg=np.asarray(seg_of, dtype=int),
                 piece_x0=x[:-1].copy(), piece_h=np.diff(x),
                 absorbers=tuple(absorbers),
-                lumped=tuple((n, *v) for n, v in sorted(lumped.items())))
+                lumped=tuple((n, *v) for n, v in sorted(lumped.items())),
+                dpn=2 if line.kind == "bending" else 1)
 
 
 # --------------------------------------------------------------------- ends
-def end_condition(line: Line, side: int) -> str:
-    """'dirichlet', 'none' or 'point' for end 0 (left) or 1 (right)."""
+_HELD = {"fixed": (0,), "open": (0,), "free": (), "closed": (), "clamped": (0, 1),
+         "pinned": (0,), "sliding": (1,)}
+
+
+def held_dofs(mesh: Mesh, replaced: tuple[bool, bool] = (False, False)) -> list[int]:
+    """Global DOFs held at zero by the ends. An end replaced by an imposed velocity
+    keeps only its rotational condition (a clamped base that moves stays clamped)."""
+    line = mesh.line
+    out = []
+    for side in (0, 1):
+        e = line.ends[side]
+        if isinstance(e, EndTable):
+            continue
+        node = 0 if side == 0 else mesh.n_nodes - 1
+        for j in _HELD.get(e, ()):
+            if replaced[side] and j == 0:
+                continue
+            out.append(mesh.dpn * node + j)
+    return out
+
+
+def end_terms(line: Line, side: int, omega: np.ndarray, damped: bool,
+              replaced: bool = False) -> list[tuple[int, np.ndarray]]:
+    """(local DOF, point dynamic stiffness) an end adds to its node. Radiating duct ends
+    give the analogue stiffness i w / Z; an end replaced by an imposed velocity keeps
+    only its rotational elements."""
     e = line.ends[side]
+    d = line.damping
     if isinstance(e, EndTable):
-        return "point"
-    if e in ("fixed", "open"):
-        return "dirichlet"
-    if e in ("free", "closed"):
-        return "none"
-    return "point"   # anechoic, unflanged, flanged
+        out = []
+        if not replaced:
+            out.append((0, _lumped(omega, e.mass, e.spring, e.dashpot, d, damped)))
+        if line.kind == "bending" and (e.rot_spring or e.rot_inertia):
+            out.append((1, _lumped(omega, e.rot_inertia, e.rot_spring, 0.0, d, damped)))
+        return out
+    if replaced or e in _HELD:
+        return []
+    return [(0, end_stiffness(line, side, omega, damped))]
 
 
 def end_stiffness(line: Line, side: int, omega: np.ndarray, damped: bool) -> np.ndarray:
-    """Point dynamic stiffness an end adds to its node (analogue stiffness i w / Z for
-    radiating duct ends)."""
+    """Point dynamic stiffness of a radiating or anechoic duct end: the analogue
+    stiffness i w / Z of its acoustic impedance Z = p / U_out."""
     e = line.ends[side]
     w = omega
-    d = line.damping
-    if isinstance(e, EndTable):
-        return _lumped(w, e.mass, e.spring, e.dashpot, d, damped)
     seg = line.segments[0 if side == 0 else -1]
     area = seg.area
     rho = seg.rho if seg.rho is not None else AIR["rho"]
@@ -163,17 +191,23 @@ def _lumped(w, mass, spring, dashpot, d, damped):
 
 # ------------------------------------------------------------ piece physics
 def piece_wavenumbers(mesh: Mesh, omega: np.ndarray, damped: bool):
-    """(S, k) of every piece: arrays (n_freq, n_piece); Im k <= 0 when damped.
+    """(S, k) of every piece: arrays (n_freq, n_piece). Second order: k = sqrt(w^2 m / S),
+    Im k <= 0 when damped. Bending: S = EI and k = beta = (w^2 m / EI)^(1/4).
     Computed once per segment; pieces of a segment share it."""
     S, W2M = segment_coefficients(mesh.line, omega, damped=damped)
-    k = np.sqrt(W2M / S)
-    if damped:
-        k = np.where(k.imag > 0.0, -k, k)
+    if mesh.dpn == 2:
+        k = beam.fourth_root(W2M / S)
+        if not damped:
+            k = k.real
+    else:
+        k = np.sqrt(W2M / S)
+        if damped:
+            k = np.where(k.imag > 0.0, -k, k)
     return S[:, mesh.piece_seg], k[:, mesh.piece_seg]
 
 
 def piece_stiffness(S, k, h, damped: bool):
-    """Diagonal and off-diagonal entries of the exact piece dynamic stiffness."""
+    """Diagonal and off-diagonal entries of the exact second-order piece stiffness."""
     if damped:
         z = k * h
         e1 = np.exp(-1j * z)
@@ -186,60 +220,66 @@ def piece_stiffness(S, k, h, damped: bool):
     return S * k * np.cos(t) / s, -S * k / s
 
 
-def assemble(mesh: Mesh, omega: np.ndarray, *, damped: bool = True,
-             ends: tuple[bool, bool] = (True, True)) -> tuple[np.ndarray, np.ndarray]:
-    """Full dynamic stiffness (n_freq, n_dof, n_dof) of all nodes and absorber DOFs.
-
-    Dirichlet ends are not removed here (see :func:`free_dofs`); point ends are
-    added unless ``ends[side]`` is False (an end replaced by an imposed velocity).
-    Returns (K, J0) with J0 the clamped-piece count of Wittrick and Williams
-    (only meaningful for ``damped=False``).
-    """
-    line = mesh.line
-    omega = np.asarray(omega, dtype=float)
-    nf, n, nn = omega.size, mesh.n_dof, mesh.n_nodes
-    K = np.zeros((nf, n, n), dtype=complex if damped else float)
-    S, k = piece_wavenumbers(mesh, omega, damped)
-    k11, k12 = piece_stiffness(S, k, mesh.piece_h, damped)
-    idx = np.arange(nn - 1)
-    K[:, idx, idx] += k11
-    K[:, idx + 1, idx + 1] += k11
-    K[:, idx, idx + 1] += k12
-    K[:, idx + 1, idx] += k12
-    J0 = np.zeros(nf)
-    if not damped:
-        J0 = np.floor(k * mesh.piece_h / math.pi).sum(axis=1)
-    d = line.damping
-    for node, m, s, c in mesh.lumped:
-        K[:, node, node] += _lumped(omega, m, s, c, d, damped)
-    for j, (node, ab) in enumerate(mesh.absorbers):
-        q = nn + j
-        spring = _lumped(omega, 0.0, ab.stiffness, ab.damping, d, damped)
-        K[:, node, node] += spring
-        K[:, q, q] += spring + _lumped(omega, ab.mass, 0.0, 0.0, d, damped)
-        K[:, node, q] -= spring
-        K[:, q, node] -= spring
-    for side in (0, 1):
-        if ends[side] and end_condition(line, side) == "point":
-            node = 0 if side == 0 else nn - 1
-            K[:, node, node] += end_stiffness(line, side, omega, damped)
-    return K, J0
-
-
-def dirichlet_nodes(line: Line, replaced: tuple[bool, bool] = (False, False)) -> list[int]:
-    """Nodes held at zero by fixed or ideally open ends (an end replaced by an imposed
-    velocity is excluded)."""
+def _node_terms(mesh: Mesh, omega: np.ndarray, damped: bool, replaced=(False, False)):
+    """(global DOF, point stiffness) of attachments and ends."""
+    d = mesh.line.damping
     out = []
-    nn_last = -1
+    for node, m, s, c, ri, rs in mesh.lumped:
+        out.append((mesh.dpn * node, _lumped(omega, m, s, c, d, damped)))
+        if mesh.dpn == 2 and (ri or rs):
+            out.append((2 * node + 1, _lumped(omega, ri, rs, 0.0, d, damped)))
     for side in (0, 1):
-        if not replaced[side] and end_condition(line, side) == "dirichlet":
-            out.append(0 if side == 0 else nn_last)
+        node = 0 if side == 0 else mesh.n_nodes - 1
+        for j, kk in end_terms(mesh.line, side, omega, damped, replaced[side]):
+            out.append((mesh.dpn * node + j, kk))
     return out
 
 
+def assemble(mesh: Mesh, omega: np.ndarray, *, damped: bool = True,
+             replaced: tuple[bool, bool] = (False, False)) -> tuple[np.ndarray, np.ndarray]:
+    """Full dynamic stiffness (n_freq, n_dof, n_dof) of all node and absorber DOFs.
+
+    Held DOFs are not removed here (see :func:`held_dofs`). Returns (K, J0) with J0
+    the clamped-piece count of Wittrick and Williams (meaningful for ``damped=False``).
+    """
+    omega = np.asarray(omega, dtype=float)
+    nf, n, nn, dpn = omega.size, mesh.n_dof, mesh.n_nodes, mesh.dpn
+    K = np.zeros((nf, n, n), dtype=complex if damped else float)
+    S, k = piece_wavenumbers(mesh, omega, damped)
+    J0 = np.zeros(nf)
+    if dpn == 1:
+        k11, k12 = piece_stiffness(S, k, mesh.piece_h, damped)
+        idx = np.arange(nn - 1)
+        K[:, idx, idx] += k11
+        K[:, idx + 1, idx + 1] += k11
+        K[:, idx, idx + 1] += k12
+        K[:, idx + 1, idx] += k12
+        if not damped:
+            J0 = np.floor(k * mesh.piece_h / math.pi).sum(axis=1)
+    else:
+        Ke = beam.piece_stiffness(S, k, mesh.piece_h)          # (nf, np, 4, 4)
+        if not damped:
+            Ke = Ke.real
+            J0 = beam.clamped_count(k * mesh.piece_h).sum(axis=1)
+        for p in range(nn - 1):
+            K[:, 2 * p:2 * p + 4, 2 * p:2 * p + 4] += Ke[:, p]
+    for dof, kk in _node_terms(mesh, omega, damped, replaced):
+        K[:, dof, dof] += kk
+    d = mesh.line.damping
+    for j, (node, ab) in enumerate(mesh.absorbers):
+        q = mesh.n_line_dofs + j
+        dof = dpn * node
+        spring = _lumped(omega, 0.0, ab.stiffness, ab.damping, d, damped)
+        K[:, dof, dof] += spring
+        K[:, q, q] += spring + _lumped(omega, ab.mass, 0.0, 0.0, d, damped)
+        K[:, dof, q] -= spring
+        K[:, q, dof] -= spring
+    return K, J0
+
+
 def free_dofs(mesh: Mesh, held: list[int]) -> np.ndarray:
-    held_idx = {h % mesh.n_nodes for h in held}
-    return np.array([i for i in range(mesh.n_dof) if i not in held_idx], dtype=int)
+    held_set = set(held)
+    return np.array([i for i in range(mesh.n_dof) if i not in held_set], dtype=int)
 
 
 def static_stiffness(mesh: Mesh) -> np.ndarray:
@@ -249,31 +289,30 @@ def static_stiffness(mesh: Mesh) -> np.ndarray:
     K = np.zeros((n, n))
     for p in range(nn - 1):
         s0, _ = static_coefficients(line.kind, line.segments[mesh.piece_seg[p]])
-        kk = s0 / mesh.piece_h[p]
-        K[p, p] += kk
-        K[p + 1, p + 1] += kk
-        K[p, p + 1] -= kk
-        K[p + 1, p] -= kk
+        h = mesh.piece_h[p]
+        if mesh.dpn == 1:
+            K[p:p + 2, p:p + 2] += s0 / h * np.array([[1.0, -1.0], [-1.0, 1.0]])
+        else:   # Hermite beam element (the w -> 0 limit of the exact one)
+            K[2 * p:2 * p + 4, 2 * p:2 * p + 4] += s0 / h ** 3 * np.array(
+                [[12, 6 * h, -12, 6 * h], [6 * h, 4 * h * h, -6 * h, 2 * h * h],
+                 [-12, -6 * h, 12, -6 * h], [6 * h, 2 * h * h, -6 * h, 4 * h * h]])
     zero = np.zeros(1)
-    for node, _m, s, _c in mesh.lumped:
-        K[node, node] += s
+    for dof, kk in _node_terms(mesh, zero, False):
+        K[dof, dof] += float(kk[0])
     for j, (node, ab) in enumerate(mesh.absorbers):
-        q = nn + j
-        K[node, node] += ab.stiffness
+        q = mesh.n_line_dofs + j
+        dof = mesh.dpn * node
+        K[dof, dof] += ab.stiffness
         K[q, q] += ab.stiffness
-        K[node, q] -= ab.stiffness
-        K[q, node] -= ab.stiffness
-    for side in (0, 1):
-        if end_condition(line, side) == "point":
-            node = 0 if side == 0 else nn - 1
-            K[node, node] += float(end_stiffness(line, side, zero, damped=False)[0])
+        K[dof, q] -= ab.stiffness
+        K[q, dof] -= ab.stiffness
     return K
 
 
-def assemble_tridiagonal(mesh: Mesh, omega: np.ndarray, *, ends: tuple[bool, bool] = (True, True)
+def assemble_tridiagonal(mesh: Mesh, omega: np.ndarray, *, replaced: tuple[bool, bool] = (False, False)
                          ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Damped dynamic stiffness of the line nodes as (diag (n_freq, n), off (n_freq, n-1)),
-    with the pieces' (S, k) for the interior solution.
+    """Damped dynamic stiffness of the nodes of a second-order line as
+    (diag (n_freq, n), off (n_freq, n-1)), with the pieces' (S, k) for the interior.
 
     Absorbers are condensed exactly onto their node: with s = k + i w c the
     spring-dashpot and z = -w^2 m the mass term, the node sees s z / (s + z).
@@ -286,14 +325,68 @@ def assemble_tridiagonal(mesh: Mesh, omega: np.ndarray, *, ends: tuple[bool, boo
     diag = np.zeros((nf, nn), dtype=complex)
     diag[:, :-1] += k11
     diag[:, 1:] += k11
+    for dof, kk in _node_terms(mesh, omega, True, replaced):
+        diag[:, dof] += kk
     d = line.damping
-    for node, m, s, c in mesh.lumped:
-        diag[:, node] += _lumped(omega, m, s, c, d, True)
     for node, ab in mesh.absorbers:
         s = _lumped(omega, 0.0, ab.stiffness, ab.damping, d, True)
         z = _lumped(omega, ab.mass, 0.0, 0.0, d, True)
         diag[:, node] += s * z / (s + z)
-    for side in (0, 1):
-        if ends[side] and end_condition(line, side) == "point":
-            diag[:, 0 if side == 0 else nn - 1] += end_stiffness(line, side, omega, True)
     return diag, k12, S, k
+
+
+# ------------------------------------------------------------ interior field
+def interior_weights(k, h, xi, order: int):
+    """Exact interior solution of a second-order piece: u(xi) = A u_a + B u_b (or u'
+    for ``order`` 1), in scaled exponential form (Im k <= 0), so that a large
+    imaginary k h cannot overflow and k h -> 0 keeps its digits (expm1)."""
+    k = k.astype(complex)
+    den = -np.expm1(-2j * k * h)
+    ea = np.exp(-1j * k * xi)
+    eb = np.exp(-1j * k * (h - xi))
+    if order == 0:
+        A = ea * (-np.expm1(-2j * k * (h - xi))) / den
+        B = eb * (-np.expm1(-2j * k * xi)) / den
+        return A, B
+    if order == 1:
+        A = -1j * k * (ea + ea * eb * eb) / den
+        B = 1j * k * (eb + eb * ea * ea) / den
+        return A, B
+    raise ValueError(order)
+
+
+def interior_field(mesh: Mesh, S: np.ndarray, k: np.ndarray, U: np.ndarray,
+                   p: np.ndarray, xi: np.ndarray, order: int) -> np.ndarray:
+    """The ``order``-th x-derivative of the exact solution inside pieces ``p`` at local
+    coordinates ``xi``, for nodal values U (n_freq, n_dof) and piece (S, k) (n_freq,
+    n_piece). Returns (n_freq, len(p)), complex."""
+    h = mesh.piece_h[p]
+    kp = k[:, p]
+    if mesh.dpn == 1:
+        A, B = interior_weights(kp, h, xi, order)
+        return A * U[:, p] + B * U[:, p + 1]
+    u = (U[:, 2 * p], U[:, 2 * p + 1], U[:, 2 * p + 2], U[:, 2 * p + 3])
+    return beam.interior(S[:, p], kp.astype(complex), h, xi, u, order)
+
+
+def static_field(mesh: Mesh, U: np.ndarray, p: np.ndarray, xi: np.ndarray,
+                 order: int) -> np.ndarray:
+    """Interior field at zero frequency (rigid-body modes): linear for second-order
+    pieces, the cubic Hermite interpolant for bending pieces."""
+    h = mesh.piece_h[p]
+    s = xi / h
+    if mesh.dpn == 1:
+        ua, ub = U[:, p], U[:, p + 1]
+        return ua + (ub - ua) * s if order == 0 else (ub - ua) / h + 0 * ua
+    w1, t1, w2, t2 = U[:, 2 * p], U[:, 2 * p + 1], U[:, 2 * p + 2], U[:, 2 * p + 3]
+    if order == 0:
+        N = (1 - 3 * s ** 2 + 2 * s ** 3, h * (s - 2 * s ** 2 + s ** 3),
+             3 * s ** 2 - 2 * s ** 3, h * (-s ** 2 + s ** 3))
+    elif order == 1:
+        N = ((-6 * s + 6 * s ** 2) / h, 1 - 4 * s + 3 * s ** 2, (6 * s - 6 * s ** 2) / h,
+             -2 * s + 3 * s ** 2)
+    elif order == 2:
+        N = ((-6 + 12 * s) / h ** 2, (-4 + 6 * s) / h, (6 - 12 * s) / h ** 2, (-2 + 6 * s) / h)
+    else:
+        N = (12 / h ** 3, 6 / h ** 2, -12 / h ** 3, 6 / h ** 2)
+    return N[0] * w1 + N[1] * t1 + N[2] * w2 + N[3] * t2

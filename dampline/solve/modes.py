@@ -23,8 +23,8 @@ import numpy as np
 from ..errors import ModelError
 from ..families import static_coefficients
 from ..model.line import Line
-from .mesh import (Mesh, assemble, build_mesh, dirichlet_nodes, free_dofs,
-                   piece_wavenumbers, static_stiffness)
+from .mesh import (Mesh, assemble, build_mesh, free_dofs, held_dofs, interior_field,
+                   piece_wavenumbers, static_field, static_stiffness)
 
 __all__ = ["natural_frequencies", "modes", "ModeSet"]
 
@@ -64,7 +64,7 @@ class _Counter:
 
     def __init__(self, line: Line):
         self.mesh = build_mesh(line)
-        self.free = free_dofs(self.mesh, dirichlet_nodes(line))
+        self.free = free_dofs(self.mesh, held_dofs(self.mesh))
         # absorber DOFs couple to their node only: bandwidth from the assembled pattern
         order = self._band_order()
         self.order = order
@@ -74,44 +74,100 @@ class _Counter:
         self.bw = int(np.max(np.abs(ii - jj))) if ii.size else 0
 
     def _band_order(self) -> np.ndarray:
+        """Free DOFs node by node, each absorber right after its node: a narrow band."""
         m = self.mesh
-        nn = m.n_nodes
         free = set(self.free.tolist())
         seq = []
         by_node: dict[int, list[int]] = {}
         for j, (node, _ab) in enumerate(m.absorbers):
-            by_node.setdefault(node, []).append(nn + j)
-        for i in range(nn):
-            if i in free:
-                seq.append(i)
-            seq += by_node.get(i, [])
+            by_node.setdefault(node, []).append(m.n_line_dofs + j)
+        for i in range(m.n_nodes):
+            seq += [m.dpn * i + j for j in range(m.dpn) if m.dpn * i + j in free]
+            seq += [q for q in by_node.get(i, []) if q in free]
         return np.asarray(seq, dtype=int)
 
     def __call__(self, omega: np.ndarray) -> np.ndarray:
+        """Fast count: LDL^T without pivoting along the band."""
         omega = np.asarray(omega, dtype=float)
         K, J0 = assemble(self.mesh, omega, damped=False)
         o = self.order
         A = K[:, o[:, None], o[None, :]]
         return (J0 + _negcount(A, self.bw)).astype(int)
 
+    def _scaled(self, omega: np.ndarray):
+        K, J0 = assemble(self.mesh, np.asarray(omega, dtype=float), damped=False)
+        f = self.free
+        A = K[:, f[:, None], f[None, :]]
+        # a diagonal congruence keeps the inertia and balances force and moment rows
+        d = 1.0 / np.sqrt(np.abs(A).max(axis=2) + 1e-300)
+        return A * d[:, :, None] * d[:, None, :], J0
+
+    def stable(self, omega: np.ndarray):
+        """Backward-stable count from the eigenvalues of the scaled matrix:
+        (J, eigenvalues ascending, J0)."""
+        A, J0 = self._scaled(omega)
+        ev = np.linalg.eigvalsh(A)
+        return (J0 + (ev < 0).sum(axis=1)).astype(int), ev, J0.astype(int)
+
+    def crossing(self, omega: np.ndarray, q: np.ndarray) -> np.ndarray:
+        """The q-th smallest eigenvalue of the scaled K(w): continuous inside a bracket
+        without poles, and zero at the natural frequency it holds."""
+        A, _ = self._scaled(omega)
+        ev = np.linalg.eigvalsh(A)
+        return ev[np.arange(len(q)), q]
+
 
 def _rigid_count(mesh: Mesh, free: np.ndarray) -> int:
     K0 = static_stiffness(mesh)[np.ix_(free, free)]
     if K0.size == 0:
         return 0
-    ev = np.linalg.eigvalsh(K0)
+    d = np.sqrt(np.abs(np.diag(K0))) + 1e-300       # balance translations and rotations
+    ev = np.linalg.eigvalsh(K0 / d[:, None] / d[None, :])
     return int(np.sum(np.abs(ev) <= 1e-10 * np.abs(ev).max()))
 
 
-def _omega_scale(line: Line) -> float:
-    """pi c / L of the whole line with its slowest speed: a first-mode scale."""
+def _omega_scale(line: Line, count: int) -> float:
+    """A frequency near the count-th mode: n pi c / L (second order), or
+    (n pi / L)^2 sqrt(EI / m) with the softest segment (bending)."""
+    if line.kind == "bending":
+        r = min(math.sqrt(np.divide(*static_coefficients(line.kind, s))) for s in line.segments)
+        return (count * math.pi / line.length) ** 2 * r
     t = sum(s.length / math.sqrt(np.divide(*static_coefficients(line.kind, s)))
             for s in line.segments)
-    return math.pi / t
+    return count * math.pi / t
 
 
-def _bisect_all(counter: _Counter, targets: np.ndarray, hi0: float) -> tuple[np.ndarray, np.ndarray]:
-    """Bracket [lo, hi] with J(lo) < target <= J(hi) for every target, shrunk to rounding."""
+def _bisect(count_fn, targets: np.ndarray, lo: np.ndarray, hi: np.ndarray,
+            rtol: float) -> tuple[np.ndarray, np.ndarray]:
+    """Bisect every bracket on the count J until (hi - lo) <= rtol hi."""
+    lo, hi = lo.copy(), hi.copy()
+    for _ in range(2000):
+        active = (hi - lo) > rtol * hi
+        if not active.any():
+            break
+        mid = 0.5 * (lo[active] + hi[active])
+        um, inv = np.unique(mid, return_inverse=True)   # shared brackets, one evaluation
+        J = count_fn(um)[inv]
+        up = J >= targets[active]
+        ia = np.flatnonzero(active)
+        hi[ia[up]] = mid[up]
+        lo[ia[~up]] = mid[~up]
+    return lo, hi
+
+
+def _find_roots(counter: _Counter, targets: np.ndarray, hi0: float) -> np.ndarray:
+    """The target-th natural frequency for every target (rad/s).
+
+    1. Bracket by bisection on the fast LDL^T count to 1e-8 relative: without
+       pivoting its sign pattern is only unreliable very near a root.
+    2. Check each bracket with the backward-stable count (eigenvalues of the
+       row-scaled matrix) and widen any that fails.
+    3. Inside a bracket holding one root and no piece pole, one eigenvalue of
+       K(w) crosses zero from above (the exact dynamic stiffness decreases with
+       w): find that crossing by the Illinois variant of regula falsi to full
+       precision. Brackets with a pole are finished by bisection on the stable count.
+    """
+    eps = np.finfo(float).eps
     hi_w = hi0
     for _ in range(200):
         if counter(np.array([hi_w]))[0] >= targets.max():
@@ -119,21 +175,57 @@ def _bisect_all(counter: _Counter, targets: np.ndarray, hi0: float) -> tuple[np.
         hi_w *= 2.0
     else:  # pragma: no cover - would need an infinitely stiff model
         raise ModelError("count", int(targets.max()), "", "could not bracket that many modes")
-    lo = np.zeros(targets.size)
-    hi = np.full(targets.size, hi_w)
-    for _ in range(2000):
-        active = (hi - lo) > 4.0 * np.finfo(float).eps * hi
-        if not active.any():
+    lo, hi = _bisect(counter, targets, np.zeros(targets.size), np.full(targets.size, hi_w), 1e-8)
+
+    widen = 1e-7
+    for _ in range(12):
+        J_lo = counter.stable(lo)[0]
+        J_hi = counter.stable(hi)[0]
+        bad = (J_lo >= targets) | (J_hi < targets)
+        if not bad.any():
             break
-        mid = 0.5 * (lo[active] + hi[active])
-        # targets that share a bracket share the evaluation
-        um, inv = np.unique(mid, return_inverse=True)
-        J = counter(um)[inv]
-        up = J >= targets[active]
-        ia = np.flatnonzero(active)
-        hi[ia[up]] = mid[up]
-        lo[ia[~up]] = mid[~up]
-    return lo, hi
+        lo[bad] = np.maximum(lo[bad] - widen * hi[bad], 0.0)
+        hi[bad] = hi[bad] * (1.0 + widen)
+        widen *= 10.0
+    J_lo, ev_lo, J0_lo = counter.stable(lo)
+    J_hi, _ev, J0_hi = counter.stable(hi)
+    simple = (J_lo == targets - 1) & (J_hi == targets) & (J0_lo == J0_hi) & (lo > 0)
+    root = 0.5 * (lo + hi)
+    if (~simple).any():
+        idx = np.flatnonzero(~simple)
+        l2, h2 = _bisect(lambda w: counter.stable(w)[0], targets[idx], lo[idx], hi[idx], 4 * eps)
+        root[idx] = 0.5 * (l2 + h2)
+    idx = np.flatnonzero(simple)
+    if idx.size:
+        q = (J_lo - J0_lo)[idx]                      # index of the crossing eigenvalue
+        a, b = lo[idx], hi[idx]
+        fa = counter.crossing(a, q)
+        fb = counter.crossing(b, q)
+        side = np.zeros(idx.size, dtype=int)
+        for _ in range(100):
+            act = (b - a) > 4 * eps * b
+            if not act.any():
+                break
+            x = b - fb * (b - a) / (fb - fa)
+            inside = (x > a) & (x < b) & np.isfinite(x)
+            x = np.where(inside, x, 0.5 * (a + b))
+            fx = np.ones_like(x)
+            fx[act] = counter.crossing(x[act], q[act])
+            pos = act & (fx > 0)
+            neg = act & (fx < 0)
+            zero = act & (fx == 0)
+            # Illinois: halve the retained end's value when the same end is kept twice
+            fb = np.where(pos & (side == 1), 0.5 * fb, fb)
+            fa = np.where(neg & (side == -1), 0.5 * fa, fa)
+            a = np.where(pos, x, a)
+            fa = np.where(pos, fx, fa)
+            b = np.where(neg, x, b)
+            fb = np.where(neg, fx, fb)
+            side = np.where(pos, 1, np.where(neg, -1, side))
+            a = np.where(zero, x, a)
+            b = np.where(zero, x, b)
+        root[idx] = 0.5 * (a + b)
+    return root
 
 
 @dataclass(frozen=True, eq=False)
@@ -163,37 +255,30 @@ class ModeSet:
 
     @property
     def absorber_amplitudes(self) -> np.ndarray:
-        return self.nodal[:, self.mesh.n_nodes:]
+        return self.nodal[:, self.mesh.n_line_dofs:]
 
-    def shape(self, x, derivative: bool = False) -> np.ndarray:
-        """Mode shapes (or their x-derivatives) at positions x: array (len(x), count)."""
+    def shape(self, x, derivative: bool | int = False) -> np.ndarray:
+        """Mode shapes at positions x: array (len(x), count). ``derivative`` = True or
+        1 gives the slope; 2 and 3 (bending) the second and third derivatives."""
         from .exact import check_position
         xs = check_position(self.line, "x", x)
-        m = self.mesh
-        p, xi = m.locate(xs)
-        w = self.omega
-        S, k = piece_wavenumbers(m, w, damped=False)        # (count, n_piece)
-        h = m.piece_h[p][None, :]
-        kk = k[:, p]
-        ua = self.nodal[:, p]
-        ub = self.nodal[:, p + 1]
-        out = np.empty((self.count, xs.size))
-        rigid = w == 0.0
-        el = ~rigid
-        if el.any():
-            t = kk[el] * h
-            s = np.sin(t)
-            if not derivative:
-                out[el] = (ua[el] * np.sin(kk[el] * (h - xi)) + ub[el] * np.sin(kk[el] * xi)) / s
-            else:
-                out[el] = kk[el] * (-ua[el] * np.cos(kk[el] * (h - xi))
-                                    + ub[el] * np.cos(kk[el] * xi)) / s
-        if rigid.any():
-            if not derivative:
-                out[rigid] = ua[rigid] + (ub[rigid] - ua[rigid]) * (xi / h)
-            else:
-                out[rigid] = (ub[rigid] - ua[rigid]) / h
-        return out.T
+        order = int(derivative)
+        if order > (1 if self.mesh.dpn == 1 else 3) or order < 0:
+            raise ModelError("derivative", derivative, "", "is out of range for this kind")
+        p, xi = self.mesh.locate(xs)
+        return _field(self.mesh, self.omega, self.nodal, p, xi, order).T
+
+
+def _field(mesh: Mesh, omega: np.ndarray, nodal: np.ndarray, p, xi, order: int) -> np.ndarray:
+    """Real undamped mode fields (count, len(p)); rigid-body modes by static interpolation."""
+    out = np.empty((omega.size, len(p)))
+    rigid = omega == 0.0
+    if (~rigid).any():
+        S, k = piece_wavenumbers(mesh, omega[~rigid], damped=False)
+        out[~rigid] = interior_field(mesh, S, k, nodal[~rigid], p, xi, order).real
+    if rigid.any():
+        out[rigid] = static_field(mesh, nodal[rigid], p, xi, order)
+    return out
 
 
 def _series(t, coeffs, powers):
@@ -228,22 +313,51 @@ def _mass_products(mesh: Mesh, omega: np.ndarray, V: np.ndarray, W: np.ndarray) 
     m_seg = np.array([static_coefficients(line.kind, s)[1] for s in line.segments])
     mp = m_seg[mesh.piece_seg]
     h = mesh.piece_h
+    if mesh.dpn == 2:
+        return _mass_products_beam(mesh, omega, V, W, mp)
     _, k = piece_wavenumbers(mesh, omega, damped=False)
     g1, g2 = _piece_mass_integrals(k * h)
     va, vb, wa, wb = V[:, :-1], V[:, 1:], W[:, :-1], W[:, 1:]
     va, vb = V[:, :mesh.n_nodes - 1], V[:, 1:mesh.n_nodes]
     wa, wb = W[:, :mesh.n_nodes - 1], W[:, 1:mesh.n_nodes]
     total = (mp * h * (g1 * (va * wa + vb * wb) + g2 * (va * wb + vb * wa))).sum(axis=1)
-    for node, mass, _s, _c in mesh.lumped:
-        total += mass * V[:, node] * W[:, node]
-    for ee, side in ((line.ends[0], 0), (line.ends[1], 1)):
+    return total + _point_mass_products(mesh, V, W)
+
+
+def _point_mass_products(mesh: Mesh, V: np.ndarray, W: np.ndarray) -> np.ndarray:
+    """Point masses and rotary inertias of attachments and end tables, absorber masses."""
+    line, dpn = mesh.line, mesh.dpn
+    total = np.zeros(V.shape[0])
+    terms = [(node, mass, ri) for node, mass, _s, _c, ri, _rs in mesh.lumped]
+    for side, ee in enumerate(line.ends):
         if not isinstance(ee, str):
-            node = 0 if side == 0 else mesh.n_nodes - 1
-            total += ee.mass * V[:, node] * W[:, node]
+            terms.append((0 if side == 0 else mesh.n_nodes - 1, ee.mass, ee.rot_inertia))
+    for node, mass, ri in terms:
+        total += mass * V[:, dpn * node] * W[:, dpn * node]
+        if dpn == 2 and ri:
+            total += ri * V[:, 2 * node + 1] * W[:, 2 * node + 1]
     for j, (_node, ab) in enumerate(mesh.absorbers):
-        q = mesh.n_nodes + j
+        q = mesh.n_line_dofs + j
         total += ab.mass * V[:, q] * W[:, q]
     return total
+
+
+def _mass_products_beam(mesh: Mesh, omega, V, W, mp) -> np.ndarray:
+    """Bending: integral of m v w over every piece by Gauss-Legendre quadrature of the
+    exact shapes, with enough points for the piece's beta h (the integrand is entire:
+    the error falls like (beta h / 2)^(2n) / (2n)!)."""
+    h = mesh.piece_h
+    _, beta = piece_wavenumbers(mesh, omega, damped=False)
+    nq = int(min(400, max(12, np.ceil(1.2 * np.max(beta * h, initial=0.0)) + 12)))
+    t, wq = np.polynomial.legendre.leggauss(nq)
+    npc = len(h)
+    p = np.repeat(np.arange(npc), nq)
+    xi = (0.5 * (t + 1.0))[None, :] * h[:, None]
+    xi = xi.ravel()
+    weights = (0.5 * wq[None, :] * h[:, None] * mp[:, None]).ravel()
+    fv = _field(mesh, omega, V, p, xi, 0)
+    fw = fv if W is V else _field(mesh, omega, W, p, xi, 0)
+    return (fv * fw) @ weights + _point_mass_products(mesh, V, W)
 
 
 def _mode_vectors(counter: _Counter, omega: np.ndarray, n_rigid: int) -> np.ndarray:
@@ -290,7 +404,7 @@ def _mode_vectors(counter: _Counter, omega: np.ndarray, n_rigid: int) -> np.ndar
             nodal[a] /= math.sqrt(_mass_products(mesh, omega[[a]], nodal[[a]], nodal[[a]])[0])
         start = stop
     # sign: the largest nodal value positive
-    big = np.argmax(np.abs(nodal[:, :mesh.n_nodes]), axis=1)
+    big = np.argmax(np.abs(nodal[:, :mesh.n_line_dofs:mesh.dpn]), axis=1) * mesh.dpn
     sgn = np.sign(nodal[np.arange(count), big])
     nodal *= np.where(sgn == 0, 1.0, sgn)[:, None]
     return nodal
@@ -303,8 +417,7 @@ def _solve_frequencies(line: Line, count: int):
     n_el = count - n_rigid
     if n_el:
         targets = np.arange(n_rigid + 1, count + 1)
-        lo, hi = _bisect_all(counter, targets, _omega_scale(line) * (count + 1))
-        omega[n_rigid:] = 0.5 * (lo + hi)
+        omega[n_rigid:] = _find_roots(counter, targets, _omega_scale(line, count + 1))
     return counter, omega, n_rigid
 
 

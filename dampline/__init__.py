@@ -11,6 +11,8 @@ Public API (SI units, Hz, time convention e^{+i w t})::
 
 from .errors import ModelError
 from .model import Absorber, Attachment, Damping, EndTable, Line, Segment, dumps, load, save
+from .model import sections
+from .model.sections import Section
 from .results import FRF, Peaks
 from .solve import ModeSet, frf, modes, natural_frequencies
 
@@ -19,5 +21,5 @@ __version__ = "0.1.0"
 __all__ = [
     "ModelError", "Line", "Segment", "EndTable", "Attachment", "Absorber", "Damping",
     "load", "save", "dumps", "frf", "natural_frequencies", "modes", "ModeSet", "FRF",
-    "Peaks", "__version__",
+    "Peaks", "Section", "sections", "__version__",
 ]

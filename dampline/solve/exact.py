@@ -164,8 +164,17 @@ def frf(line: Line, freqs_hz, drive_at: float = 0.0, response_at=(0.0,), drive: 
     drive, quantity, xd, side = check_request(line, drive, quantity, drive_at)
     xr = check_position(line, "response_at", response_at)
     if method == "modal":
-        raise ModelError("method", method, "", "modal superposition is not available in this "
-                         "version; use method='exact'")
+        from .modal import modal_frf
+        allowed = ("modes", "coupling", "residual")
+        for key in options:
+            if key not in allowed:
+                raise ModelError(key, options[key], "", "unknown option for method 'modal' "
+                                 f"(use {', '.join(allowed)})")
+        values = modal_frf(line, f, xd, xr, drive, quantity, options.get("modes"),
+                           options.get("coupling", "full"), options.get("residual", True))
+        return FRF(frequencies=f, values=values, quantity=quantity,
+                   unit=quantity_unit(line.kind, quantity, drive), drive=drive, drive_at=xd,
+                   response_at=xr, method="modal", kind=line.kind)
     if options:
         key = next(iter(options))
         raise ModelError(key, options[key], "", "unknown option for method 'exact'")

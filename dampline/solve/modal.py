@@ -1,0 +1,445 @@
+"""Modal superposition with the line's damping, decoupled or fully coupled.
+
+With the undamped, mass-normalised modes Phi (Phi^T M Phi = I, Phi^T K Phi =
+Omega^2) the response is u = Phi q with
+
+    D(w) q = Phi^T f,   D(w) = K0 + i w C1 - w^2 M1 + sum_k g_k(w) G_k,
+
+where every damping mechanism of the model is projected on the modes:
+
+- modal damping: C1 += diag(2 zeta_n w_n) (elastic modes);
+- Rayleigh, C = alpha M + beta K of the assembled line: C1 += alpha I + beta Omega^2;
+- loss factors, E -> E (1 + i eta_s) on segment s: K0 += i eta_s Phi^T K_s Phi, the
+  segment's modal strain-energy matrix (a duct's complex bulk modulus scales its
+  compliance instead: M1 += (1/(1 + i eta_s) - 1) Phi^T M_s Phi);
+- dashpots to ground and in absorbers: C1 += c (phi(x) phi(x)^T), with the relative
+  motion for an absorber; an anechoic duct end is an analogue dashpot A / (rho c);
+- frequency-dependent terms: radiating duct ends (g = i w / Z(w) minus its reactive
+  part, already in the modes) and Kirchhoff wall losses.
+
+Proportional damping leaves D diagonal. Otherwise ``coupling="diagonal"`` keeps
+only the diagonal (each mode independent, its damping from the modal damping
+ratio or the modal strain energy loss factor of Johnson and Kienholz, AIAA J.
+20(9), 1982), and ``coupling="full"`` keeps all of D. The full polynomial
+D(w) is diagonalised once in state space (complex modes of the damped line), so
+that every frequency again costs one matrix product; only the
+frequency-dependent duct terms need a dense solve per frequency.
+
+The quasi-static residual of the modes left out (``residual=True``) is the
+exact response at a low frequency w0 minus the kept modes' part of it: the sum
+over n > N of phi_n phi_n^T / D_n(w0), which differs from the static residual
+by O(w0^2 / w_(N+1)^2) and keeps the left-out modes' loss factors.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+import scipy.linalg
+
+from ..errors import ModelError
+from ..families import radiation_end_correction, segment_coefficients, segment_eta, \
+    static_coefficients, wall_loss_factors
+from ..model.line import AIR, EndTable, Line
+from .mesh import build_mesh, end_stiffness, interior_field, piece_wavenumbers
+from .modes import ModeSet, _field, modes as compute_modes
+
+__all__ = ["ModalModel", "modal_model", "modal_frf"]
+
+
+def _skeleton(line: Line) -> dict:
+    """The parts of a model that set its undamped modes (damping values stripped)."""
+    d = line.to_dict()
+    d.pop("damping", None)
+    d.pop("title", None)
+    for s in d["segments"]:
+        s.pop("eta", None)
+    for e in d["ends"].values():
+        if isinstance(e, dict):
+            e.pop("dashpot", None)
+    atts = []
+    for a in d.get("attachments", []):
+        a = dict(a)
+        a.pop("dashpot", None)
+        if "absorber" in a:
+            a["absorber"] = {k: v for k, v in a["absorber"].items() if k != "damping"}
+        if len(a) > 1:
+            atts.append(a)
+    d["attachments"] = atts
+    if line.kind == "duct":     # anechoic ends are closed for the undamped modes
+        d["ends"] = {k: ("closed" if v == "anechoic" else v) for k, v in d["ends"].items()}
+    return d
+
+
+@dataclass(frozen=True, eq=False)
+class Projections:
+    """Modal matrices of a ModeSet that do not depend on damping values."""
+
+    seg_K: np.ndarray     # (n_seg, N, N): int over segment s of S phi_i' phi_j' (EI phi'' phi'')
+    seg_M: np.ndarray     # (n_seg, N, N): int over segment s of m phi_i phi_j
+
+
+def projections(ms: ModeSet) -> Projections:
+    """Segment strain-energy and kinetic-energy matrices by Gauss-Legendre quadrature of
+    the exact mode shapes (points per piece grow with its k h, so the error stays at
+    rounding)."""
+    cached = ms.__dict__.get("_projections")
+    if cached is not None:
+        return cached
+    mesh = ms.mesh
+    line = ms.line
+    h = mesh.piece_h
+    w = ms.omega
+    _, k = piece_wavenumbers(mesh, w, damped=False)
+    nq = int(min(600, max(16, np.ceil(1.2 * np.max(k * h, initial=0.0)) + 16)))
+    t, wq = np.polynomial.legendre.leggauss(nq)
+    p = np.repeat(np.arange(len(h)), nq)
+    xi = ((0.5 * (t + 1.0))[None, :] * h[:, None]).ravel()
+    wts = (0.5 * wq[None, :] * h[:, None]).ravel()
+    order = 2 if mesh.dpn == 2 else 1
+    f0 = _field(mesh, w, ms.nodal, p, xi, 0)          # (N, npts)
+    fd = _field(mesh, w, ms.nodal, p, xi, order)
+    nseg = len(line.segments)
+    N = ms.count
+    seg_K = np.zeros((nseg, N, N))
+    seg_M = np.zeros((nseg, N, N))
+    seg_of_pt = mesh.piece_seg[p]
+    for s, seg in enumerate(line.segments):
+        S0, m0 = static_coefficients(line.kind, seg)
+        sel = seg_of_pt == s
+        ws = wts[sel]
+        seg_K[s] = S0 * (fd[:, sel] * ws) @ fd[:, sel].T
+        seg_M[s] = m0 * (f0[:, sel] * ws) @ f0[:, sel].T
+    out = Projections(seg_K=seg_K, seg_M=seg_M)
+    ms.__dict__["_projections"] = out
+    return out
+
+
+@dataclass(frozen=True, eq=False)
+class ModalModel:
+    """The projected damping of a line on a ModeSet: D(w) = K0 + i w C1 - w^2 M1 + sum g_k(w) G_k."""
+
+    line: Line
+    modes: ModeSet
+    K0: np.ndarray
+    C1: np.ndarray
+    M1: np.ndarray
+    terms: tuple[tuple[Callable[[np.ndarray], np.ndarray], np.ndarray], ...]
+
+    @property
+    def proportional(self) -> bool:
+        """True when every damping matrix is diagonal (no coupling through damping)."""
+        mats = [self.K0, self.C1, self.M1] + [G for _g, G in self.terms]
+        return all(_is_diagonal(A) for A in mats)
+
+    def dynamic_matrix(self, omega: np.ndarray, diagonal: bool = False) -> np.ndarray:
+        """D(w) for every frequency: (n_freq, N, N), or its diagonal (n_freq, N)."""
+        w = np.asarray(omega, dtype=float)
+        if diagonal:
+            D = (np.diag(self.K0)[None, :] + 1j * w[:, None] * np.diag(self.C1)[None, :]
+                 - (w * w)[:, None] * np.diag(self.M1)[None, :])
+            for g, G in self.terms:
+                D = D + g(w)[:, None] * np.diag(G)[None, :]
+            return D
+        D = (self.K0[None] + 1j * w[:, None, None] * self.C1[None]
+             - (w * w)[:, None, None] * self.M1[None])
+        for g, G in self.terms:
+            D = D + g(w)[:, None, None] * G[None]
+        return D
+
+    def damping_matrix(self, omega: float | None = None) -> np.ndarray:
+        """The modal damping matrix in stiffness units, B = Im D(w) without its elastic
+        and inertia parts: w C1 + Im K0 - w^2 Im M1 + Im sum g_k(w) G_k, each pair
+        (i, j) taken at w = (w_i + w_j) / 2 unless ``omega`` (rad/s) is given."""
+        wn = self.modes.omega
+        if omega is None:
+            wbar = 0.5 * (wn[:, None] + wn[None, :])
+        else:
+            wbar = np.full((wn.size, wn.size), float(omega))
+        B = wbar * self.C1.real + self.K0.imag - wbar ** 2 * self.M1.imag
+        if self.terms:
+            u, inv = np.unique(wbar, return_inverse=True)
+            safe = np.where(u > 0.0, u, 1e-12 * max(u.max(), 1.0))
+            for g, G in self.terms:
+                B = B + g(safe).imag[inv].reshape(wbar.shape) * G.real
+        return B
+
+
+def _is_diagonal(A: np.ndarray) -> bool:
+    off = A - np.diag(np.diag(A))
+    scale = np.abs(np.diag(A)).max(initial=0.0)
+    return bool(np.abs(off).max(initial=0.0) <= 1e-13 * max(scale, 1e-300))
+
+
+def _points(ms: ModeSet, x: float, order: int = 0) -> np.ndarray:
+    return ms.shape([x], derivative=order)[0]
+
+
+def modal_model(line: Line, ms: ModeSet) -> ModalModel:
+    """Project the damping of ``line`` on the modes ``ms`` (which must belong to the same
+    undamped line: any damping values may differ)."""
+    if _skeleton(line) != _skeleton(ms.line):
+        raise ModelError("modes", f"ModeSet of {ms.line.title or ms.line.kind!r}", "",
+                         "these modes belong to a different geometry or support; "
+                         "compute dl.modes(line, count) for this line")
+    N = ms.count
+    wn = ms.omega
+    d = line.damping
+    K0 = np.diag(wn ** 2).astype(complex)
+    C1 = np.zeros((N, N))
+    M1 = np.eye(N, dtype=complex)
+    terms: list = []
+    if d.model == "modal":
+        z = _zeta_per_mode(d.zeta, ms)
+        C1 = C1 + np.diag(2.0 * z * wn)
+    elif d.model == "rayleigh":
+        C1 = C1 + (d.alpha or 0.0) * np.eye(N) + (d.beta or 0.0) * np.diag(wn ** 2)
+    elif d.model == "loss_factor":
+        P = projections(ms)
+        for s, seg in enumerate(line.segments):
+            eta = segment_eta(line, seg)
+            if not eta:
+                continue
+            if line.kind == "duct":
+                M1 = M1 + (1.0 / (1.0 + 1j * eta) - 1.0) * P.seg_M[s]
+            else:
+                K0 = K0 + 1j * eta * P.seg_K[s]
+    # dashpots always act
+    for att in line.attachments:
+        if att.dashpot:
+            v = _points(ms, att.at)
+            C1 = C1 + att.dashpot * np.outer(v, v)
+    for j, (node, ab) in enumerate(ms.mesh.absorbers):
+        if ab.damping:
+            v = ms.absorber_amplitudes[:, j] - ms.nodal[:, ms.mesh.dpn * node]
+            C1 = C1 + ab.damping * np.outer(v, v)
+    for side, e in enumerate(line.ends):
+        x = 0.0 if side == 0 else line.length
+        if isinstance(e, EndTable) and e.dashpot:
+            v = _points(ms, x)
+            C1 = C1 + e.dashpot * np.outer(v, v)
+        if line.kind == "duct" and e == "anechoic":
+            seg = line.segments[0 if side == 0 else -1]
+            v = _points(ms, x)
+            C1 = C1 + seg.area / (seg.rho * seg.c) * np.outer(v, v)
+        if line.kind == "duct" and e in ("unflanged", "flanged"):
+            v = _points(ms, x)
+            terms.append((_radiation_term(line, side), np.outer(v, v)))
+    if line.kind == "duct" and d.wall_losses:
+        P = projections(ms)
+        for s, seg in enumerate(line.segments):
+            gK, gM = _wall_terms(line, s)
+            terms.append((gK, P.seg_K[s]))
+            terms.append((gM, P.seg_M[s]))
+    return ModalModel(line=line, modes=ms, K0=K0, C1=C1, M1=M1, terms=tuple(terms))
+
+
+def _zeta_per_mode(zeta, ms: ModeSet) -> np.ndarray:
+    """Modal damping ratios: elastic modes in ascending order take the list (its last
+    value beyond its end); a callable is evaluated at each mode's frequency (Hz);
+    rigid-body modes get none."""
+    f = ms.frequencies
+    z = np.zeros(ms.count)
+    el = np.flatnonzero(f > 0.0)
+    if callable(zeta):
+        vals = np.array([float(zeta(fi)) for fi in f[el]])
+        if not np.all(np.isfinite(vals)) or np.any(vals < 0) or np.any(vals >= 1):
+            raise ModelError("damping.zeta", "function", "(damping ratio)",
+                             "must give values in [0, 1) at every natural frequency")
+    elif isinstance(zeta, (tuple, list)):
+        zl = list(zeta)
+        vals = np.array([zl[min(i, len(zl) - 1)] for i in range(el.size)])
+    else:
+        vals = np.full(el.size, float(zeta))
+    z[el] = vals
+    return z
+
+
+def _radiation_term(line: Line, side: int):
+    seg = line.segments[0 if side == 0 else -1]
+    k0 = seg.area / ((seg.rho or AIR["rho"]) * radiation_end_correction(line.ends[side], seg.area))
+
+    def g(w: np.ndarray) -> np.ndarray:
+        return end_stiffness(line, side, np.asarray(w, float), damped=True) - k0
+    return g
+
+
+def _wall_terms(line: Line, s: int):
+    seg = line.segments[s]
+    S0, m0 = static_coefficients(line.kind, seg)
+
+    def gK(w):
+        S, _ = segment_coefficients(line, np.asarray(w, float), damped=True)
+        return S[:, s] / S0 - 1.0
+
+    def gM(w):
+        w = np.asarray(w, float)
+        _, W2M = segment_coefficients(line, w, damped=True)
+        eta = segment_eta(line, seg)
+        base = w * w * m0 / (1.0 + 1j * eta)          # already in M1
+        return -(W2M[:, s] - base) / m0
+    return gK, gM
+
+
+# ------------------------------------------------------------------ solving
+def _drive_vector(ms: ModeSet, xd: float, drive: str) -> np.ndarray:
+    return _points(ms, xd, 1 if drive == "moment" else 0)
+
+
+def _state_space(mm: ModalModel):
+    """Eigen-decomposition of the polynomial part of D: returns (lam, left, right)
+    such that D(w)^(-1) = left @ diag(1/(i w - lam)) @ right, or None when it is
+    too ill-conditioned to trust (then the caller solves per frequency)."""
+    N = mm.K0.shape[0]
+    Minv = np.linalg.inv(mm.M1)
+    if not np.any(mm.C1):
+        # D = M1 (M1^-1 K0 - w^2): diagonalise M1^-1 K0 = V L V^-1; with i w = s,
+        # (L + s^2)^-1 keeps the pole form in w^2
+        lam, V = scipy.linalg.eig(Minv @ mm.K0)
+        if np.linalg.cond(V) > 1e10:
+            return None
+        return ("k", lam, V, np.linalg.solve(V, Minv))
+    A = np.zeros((2 * N, 2 * N), dtype=complex)
+    A[:N, N:] = np.eye(N)
+    A[N:, :N] = -Minv @ mm.K0
+    A[N:, N:] = -Minv @ mm.C1
+    lam, V = scipy.linalg.eig(A)
+    if np.linalg.cond(V) > 1e10:
+        return None
+    Vi = np.linalg.inv(V)
+    return ("s", lam, V[:N, :], Vi[:, N:] @ Minv)
+
+
+_BLOCK = 512
+
+
+def modal_response(mm: ModalModel, omega: np.ndarray, phi_d: np.ndarray, phi_r: np.ndarray,
+                   coupling: str) -> np.ndarray:
+    """sum over modes of phi_r D(w)^-1 phi_d: (n_freq, n_resp) per unit generalised load."""
+    w = np.asarray(omega, dtype=float)
+    if coupling == "diagonal" or mm.proportional:
+        d = mm.dynamic_matrix(w, diagonal=True)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return (phi_d[None, :] / d) @ phi_r.T
+    if not mm.terms:
+        ss = _state_space(mm)
+        if ss is not None:
+            form, lam, left, right = ss
+            b = right @ phi_d
+            a = phi_r @ left                          # (n_resp, m)
+            if form == "k":
+                poles = lam[None, :] - (w * w)[:, None]
+            else:
+                poles = 1j * w[:, None] - lam[None, :]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                return (b[None, :] / poles) @ a.T
+    out = np.empty((w.size, phi_r.shape[0]), dtype=complex)
+    for i in range(0, w.size, _BLOCK):
+        D = mm.dynamic_matrix(w[i:i + _BLOCK])
+        q = np.linalg.solve(D, np.broadcast_to(phi_d, (D.shape[0], phi_d.size))[..., None])[..., 0]
+        out[i:i + _BLOCK] = q @ phi_r.T
+    return out
+
+
+def residual_field(mm: ModalModel, xd: float, drive: str, xr: np.ndarray, order: int
+                   ) -> tuple[np.ndarray, float]:
+    """Residual of the modes left out, for a unit force (or moment, or analogue load) at
+    xd and the field derivative ``order`` at xr: the exact response at a low frequency
+    w0 (a tenth of the first elastic natural frequency) minus the kept modes' share of
+    it, both with the line's damping where the exact solver can represent it (so the
+    left-out modes keep their loss factors), undamped under modal damping."""
+    from .exact import _solve_dense, _solve_second_order
+    ms, line = mm.modes, mm.line
+    wn = ms.omega
+    if ms.count <= ms.n_rigid:
+        return np.zeros(len(xr)), 0.0
+    w0 = np.array([0.1 * wn[ms.n_rigid]])
+    load = "moment" if drive == "moment" else "force"
+    if line.damping.model == "modal":
+        target = line.replace(damping=type(line.damping)())      # the undamped line's
+        mm0 = modal_model(target, ms)
+    else:
+        target, mm0 = line, mm
+    mesh = build_mesh(target, extra=(xd,))
+    solve = _solve_second_order if mesh.dpn == 1 else _solve_dense
+    U, S, k = solve(mesh, w0, xd, load, None, (False, False))
+    p, xi = mesh.locate(xr)
+    exact = interior_field(mesh, S, k, U, p, xi, order)[0]
+    phi_d = _drive_vector(ms, xd, drive)
+    phi_r = ms.shape(xr, derivative=order)                 # (n_resp, N)
+    # the left-out modes' share is taken with full coupling: it estimates those modes,
+    # not the error of a decoupled sum over the kept ones
+    kept = modal_response(mm0, w0, phi_d, phi_r, "full")[0]
+    return exact - kept, float(w0[0])
+
+
+_ORDER = {"receptance": 0, "mobility": 0, "accelerance": 0, "pressure": 0, "rotation": 1,
+          "velocity": 1, "volume_velocity": 1, "moment": 2, "stress": 2, "shear": 3}
+
+
+def resolve_modes(line: Line, modes) -> ModeSet:
+    if isinstance(modes, ModeSet):
+        return modes
+    if modes is None:
+        raise ModelError("modes", None, "", "method 'modal' needs modes= (a count or a ModeSet "
+                         "from dl.modes)")
+    if isinstance(modes, bool) or not isinstance(modes, (int, np.integer)) or modes < 1:
+        raise ModelError("modes", modes, "", "must be a number of modes (at least 1) or a ModeSet")
+    return compute_modes(line, int(modes))
+
+
+def modal_frf(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, quantity: str,
+              modes, coupling: str = "full", residual: bool = True) -> np.ndarray:
+    """Modal-superposition FRF values (n_freq, n_resp); see the module docstring."""
+    if coupling not in ("full", "diagonal"):
+        raise ModelError("coupling", coupling, "", "use 'full' or 'diagonal'")
+    if not isinstance(residual, (bool, np.bool_)):
+        raise ModelError("residual", residual, "", "must be True or False")
+    if drive == "velocity":
+        raise ModelError("drive", drive, "", "an imposed end velocity changes the modes' "
+                         "support; use method='exact' for it")
+    ms = resolve_modes(line, modes)
+    mm = modal_model(line, ms)
+    omega = 2.0 * math.pi * f
+    w = omega[:, None]
+    order = _ORDER.get(quantity, 3 if line.kind == "bending" else 1)
+    phi_d = _drive_vector(ms, xd, drive)
+    phi_r = ms.shape(xr, derivative=order)                       # (n_resp, N)
+    H = modal_response(mm, omega, phi_d, phi_r, coupling)        # field per unit load
+    if residual:
+        R, w0 = residual_field(mm, xd, drive, xr, order)
+        scale = np.ones_like(omega, dtype=complex)
+        if line.damping.model == "rayleigh" and line.damping.beta:
+            # left-out modes are stiffness-controlled: their share follows K (1 + i w beta)
+            b = line.damping.beta
+            scale = (1.0 + 1j * w0 * b) / (1.0 + 1j * omega * b)
+        H = H + scale[:, None] * R[None, :]
+    if drive == "volume_velocity":
+        H = H * (1j * w)                        # analogue load of a source Q: i w Q
+    if quantity in ("receptance", "pressure", "rotation"):
+        return H
+    if quantity == "mobility":
+        return 1j * w * H
+    if quantity == "accelerance":
+        return -w * w * H
+    mesh = ms.mesh
+    p, _xi = mesh.locate(xr)
+    segs = mesh.piece_seg[p]
+    S, _ = segment_coefficients(line, omega, damped=True)
+    Sr = S[:, segs]
+    if quantity == "moment":
+        return Sr * H
+    if quantity == "stress":
+        return Sr * H * np.array([line.segments[s].fibre / line.segments[s].I for s in segs])
+    if quantity in ("shear",) or (quantity == "force" and line.kind == "bending"):
+        return -Sr * H
+    N = Sr * H
+    if quantity == "force":
+        return N
+    Q = 1j * N / w
+    if quantity == "volume_velocity":
+        return Q
+    return Q / np.array([line.segments[s].area for s in segs])

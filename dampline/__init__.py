@@ -15,11 +15,13 @@ from .model import sections
 from .model.sections import Section
 from .results import FRF, Peaks
 from .solve import ModeSet, frf, modes, natural_frequencies
+from .analysis import Coupling, ModalTable, coupling, modal_table
 
 __version__ = "0.1.0"
 
 __all__ = [
     "ModelError", "Line", "Segment", "EndTable", "Attachment", "Absorber", "Damping",
     "load", "save", "dumps", "frf", "natural_frequencies", "modes", "ModeSet", "FRF",
-    "Peaks", "Section", "sections", "__version__",
+    "Peaks", "Section", "sections", "modal_table", "ModalTable", "coupling", "Coupling",
+    "__version__",
 ]

@@ -40,8 +40,13 @@ def save(line: Line, path: str | os.PathLike) -> Path:
     flushed to disk, then renamed over it, so a crash never leaves half a model."""
     if not isinstance(line, Line):
         raise ModelError("line", type(line).__name__, "", "dl.save needs a dampline.Line")
+    return write_text_atomic(path, dumps(line))
+
+
+def write_text_atomic(path: str | os.PathLike, text: str) -> Path:
+    """Write text to ``path`` atomically (temporary file beside it, fsync, rename):
+    a crash or a full disk never leaves a half-written file in its place."""
     p = Path(path)
-    text = dumps(line)
     fd, tmp = _open_beside(p)
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:

@@ -11,7 +11,7 @@ from __future__ import annotations
 import dataclasses
 import math
 from dataclasses import dataclass, field
-from typing import Any, Literal, Mapping, Union
+from typing import Any, Callable, Literal, Mapping, Union
 
 from ..errors import ModelError
 from .sections import SHAPES, Section
@@ -74,7 +74,7 @@ DAMPING_MODELS = ("none", "modal", "rayleigh", "loss_factor")
 _DAMPING_KEYS = {
     "none": (),
     "modal": ("zeta",),
-    "rayleigh": ("alpha", "beta"),
+    "rayleigh": ("alpha", "beta", "pairs"),
     "loss_factor": ("eta",),
 }
 
@@ -234,6 +234,40 @@ class Attachment:
         return out
 
 
+def _pairs(raw: Any, kind: str) -> tuple[tuple[float, float], tuple[float, float]]:
+    ok = isinstance(raw, (list, tuple)) and len(raw) == 2 and all(
+        isinstance(p, (list, tuple)) and len(p) == 2 for p in raw)
+    if not ok:
+        raise ModelError("damping.pairs", raw, "", "must be two [frequency Hz, zeta] pairs")
+    out = []
+    for j, (f, z) in enumerate(raw):
+        f = _number(f"damping.pairs[{j}][0]", f, kind)
+        z = _number(f"damping.pairs[{j}][1]", z, kind, allow_zero=True)
+        if z >= 1.0:
+            raise ModelError(f"damping.pairs[{j}][1]", z, "(damping ratio)", "must be below 1")
+        out.append((f, z))
+    return tuple(out)  # type: ignore[return-value]
+
+
+def rayleigh_from_pairs(pairs) -> tuple[float, float]:
+    """alpha (1/s) and beta (s) of C = alpha M + beta K that give damping ratio z1 at f1
+    and z2 at f2, from zeta = alpha / (2 w) + beta w / 2 (Chopra, Dynamics of Structures,
+    classical damping)."""
+    (f1, z1), (f2, z2) = pairs
+    if f1 == f2:
+        raise ModelError("damping.pairs", [list(p) for p in pairs], "Hz",
+                         "the two frequencies must differ")
+    w1, w2 = 2 * math.pi * f1, 2 * math.pi * f2
+    det = 1 / (2 * w1) * w2 / 2 - w1 / 2 / (2 * w2)
+    alpha = (z1 * w2 / 2 - z2 * w1 / 2) / det
+    beta = (z2 / (2 * w1) - z1 / (2 * w2)) / det
+    if alpha < 0 or beta < 0:
+        raise ModelError("damping.pairs", [list(p) for p in pairs], "",
+                         f"need a negative coefficient (alpha {alpha:.4g} 1/s, beta {beta:.4g} s)"
+                         ": no passive Rayleigh damping meets both pairs")
+    return float(alpha), float(beta)
+
+
 @dataclass(frozen=True)
 class Damping:
     """The line's distributed damping mechanism (the ``[damping]`` table).
@@ -246,15 +280,33 @@ class Damping:
 
     model: str = "none"
     eta: float | None = None
-    zeta: float | tuple[float, ...] | None = None
+    zeta: float | tuple[float, ...] | Callable[[float], float] | None = None
     alpha: float | None = None
     beta: float | None = None
     wall_losses: bool = False
+    #: Rayleigh fitted to two (frequency Hz, zeta) pairs: alpha and beta follow
+    pairs: tuple[tuple[float, float], tuple[float, float]] | None = None
+
+    def __post_init__(self) -> None:
+        if self.model == "rayleigh" and self.pairs is not None:
+            a, b = rayleigh_from_pairs(self.pairs)
+            object.__setattr__(self, "alpha", a)
+            object.__setattr__(self, "beta", b)
 
     def to_dict(self) -> dict[str, Any]:
         out: dict[str, Any] = {"model": self.model}
+        if callable(self.zeta):
+            raise ModelError("damping.zeta", "function", "(damping ratio)",
+                             "a zeta function cannot be written to a model file; give a "
+                             "value or a list per mode")
         for k in _DAMPING_KEYS[self.model]:
             v = getattr(self, k)
+            if k == "pairs":
+                if v is not None:
+                    out[k] = [list(p) for p in v]
+                    out.pop("alpha", None)
+                    out.pop("beta", None)
+                continue
             out[k] = list(v) if isinstance(v, tuple) else (0.0 if v is None else v)
         if self.wall_losses:
             out["wall_losses"] = True
@@ -403,14 +455,18 @@ class Line:
         if d.model not in DAMPING_MODELS:
             raise ModelError("damping.model", d.model, "",
                              f"unknown damping model (use one of {', '.join(DAMPING_MODELS)})")
-        for k in ("eta", "zeta", "alpha", "beta"):
+        for k in ("eta", "zeta", "alpha", "beta", "pairs"):
             v = getattr(d, k)
-            if v is None:
+            if v is None or (k in ("alpha", "beta") and d.pairs is not None):
                 continue
             if k not in _DAMPING_KEYS[d.model]:
                 owner = [m for m, ks in _DAMPING_KEYS.items() if k in ks][0]
                 raise ModelError(f"damping.{k}", v, unit_of(k), f"is read by model {owner!r}, "
                                  f"not by {d.model!r}")
+            if k == "pairs":
+                continue        # checked when alpha and beta were fitted
+            if k == "zeta" and callable(v):
+                continue        # checked at each natural frequency when used
             if k == "zeta":
                 vals = v if isinstance(v, tuple) else (v,)
                 if isinstance(v, tuple) and not v:
@@ -558,7 +614,8 @@ class Line:
 
     @staticmethod
     def _damping_from(raw: Any, kind: str) -> Damping:
-        _check_keys("damping", raw, ("model", "eta", "zeta", "alpha", "beta", "wall_losses"), kind)
+        _check_keys("damping", raw, ("model", "eta", "zeta", "alpha", "beta", "pairs",
+                                     "wall_losses"), kind)
         model = raw.get("model", "none")
         if model not in DAMPING_MODELS:
             raise ModelError("damping.model", model, "",
@@ -576,10 +633,18 @@ class Line:
                 vals["zeta"] = _number("damping.zeta", z, kind, allow_zero=True)
         if "wall_losses" in raw:
             vals["wall_losses"] = raw["wall_losses"]
+        if "pairs" in raw:
+            pr = raw["pairs"]
+            if model != "rayleigh":
+                raise ModelError("damping.pairs", pr, "", f"is read by model 'rayleigh', not by "
+                                 f"{model!r}")
+            if "alpha" in raw or "beta" in raw:
+                raise ModelError("damping.pairs", pr, "", "give alpha and beta, or pairs, not both")
+            vals["pairs"] = _pairs(pr, kind)
         # fill the defaults of the chosen model so to_dict is explicit
         if model == "loss_factor":
             vals.setdefault("eta", 0.0)
-        if model == "rayleigh":
+        if model == "rayleigh" and "pairs" not in vals:
             vals.setdefault("alpha", 0.0)
             vals.setdefault("beta", 0.0)
         return Damping(**vals)

@@ -52,16 +52,16 @@ __all__ = ["ModalModel", "modal_model", "modal_frf"]
 
 def _skeleton(line: Line) -> dict:
     """The parts of a model that set its undamped modes (damping values stripped)."""
-    d = line.to_dict()
-    d.pop("damping", None)
-    d.pop("title", None)
+    d = {"kind": line.kind, "segments": [s.to_dict() for s in line.segments],
+         "ends": {side: (e if isinstance(e, str) else e.to_dict())
+                  for side, e in zip(("left", "right"), line.ends)}}
     for s in d["segments"]:
         s.pop("eta", None)
     for e in d["ends"].values():
         if isinstance(e, dict):
             e.pop("dashpot", None)
     atts = []
-    for a in d.get("attachments", []):
+    for a in [a.to_dict() for a in line.attachments]:
         a = dict(a)
         a.pop("dashpot", None)
         if "absorber" in a:
@@ -128,6 +128,7 @@ class ModalModel:
     C1: np.ndarray
     M1: np.ndarray
     terms: tuple[tuple[Callable[[np.ndarray], np.ndarray], np.ndarray], ...]
+    mechanisms: tuple = ()
 
     @property
     def proportional(self) -> bool:
@@ -178,6 +179,34 @@ def _points(ms: ModeSet, x: float, order: int = 0) -> np.ndarray:
     return ms.shape([x], derivative=order)[0]
 
 
+@dataclass(frozen=True, eq=False)
+class Mechanism:
+    """One damping mechanism projected on the modes: its share of K0, C1, M1 and terms."""
+
+    name: str
+    K0: np.ndarray | None = None      # complex stiffness part (loss factors)
+    C1: np.ndarray | None = None      # viscous part
+    M1: np.ndarray | None = None      # complex compliance part (duct loss factor)
+    terms: tuple = ()
+
+    def diagonal_loss_factor(self, wn: np.ndarray) -> np.ndarray:
+        """Each mode's loss factor from this mechanism alone, Im D_nn(w_n) / w_n^2
+        (the modal strain energy loss factor of Johnson and Kienholz for loss factors,
+        2 zeta for viscous parts)."""
+        B = np.zeros(wn.size)
+        if self.K0 is not None:
+            B += np.diag(self.K0).imag
+        if self.C1 is not None:
+            B += wn * np.diag(self.C1).real
+        if self.M1 is not None:
+            B -= wn ** 2 * np.diag(self.M1).imag
+        for g, G in self.terms:
+            safe = np.where(wn > 0, wn, 1.0)
+            B += g(safe).imag * np.diag(G).real
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(wn > 0, B / wn ** 2, np.nan)
+
+
 def modal_model(line: Line, ms: ModeSet) -> ModalModel:
     """Project the damping of ``line`` on the modes ``ms`` (which must belong to the same
     undamped line: any damping values may differ)."""
@@ -188,53 +217,70 @@ def modal_model(line: Line, ms: ModeSet) -> ModalModel:
     N = ms.count
     wn = ms.omega
     d = line.damping
-    K0 = np.diag(wn ** 2).astype(complex)
-    C1 = np.zeros((N, N))
-    M1 = np.eye(N, dtype=complex)
-    terms: list = []
+    mech: list[Mechanism] = []
     if d.model == "modal":
         z = _zeta_per_mode(d.zeta, ms)
-        C1 = C1 + np.diag(2.0 * z * wn)
+        mech.append(Mechanism("modal damping (zeta)", C1=np.diag(2.0 * z * wn)))
     elif d.model == "rayleigh":
-        C1 = C1 + (d.alpha or 0.0) * np.eye(N) + (d.beta or 0.0) * np.diag(wn ** 2)
+        mech.append(Mechanism("Rayleigh damping", C1=(d.alpha or 0.0) * np.eye(N)
+                              + (d.beta or 0.0) * np.diag(wn ** 2)))
     elif d.model == "loss_factor":
         P = projections(ms)
         for s, seg in enumerate(line.segments):
             eta = segment_eta(line, seg)
             if not eta:
                 continue
+            name = f"segments[{s}] loss factor {eta:g}"
             if line.kind == "duct":
-                M1 = M1 + (1.0 / (1.0 + 1j * eta) - 1.0) * P.seg_M[s]
+                mech.append(Mechanism(name, M1=(1.0 / (1.0 + 1j * eta) - 1.0) * P.seg_M[s]))
             else:
-                K0 = K0 + 1j * eta * P.seg_K[s]
-    # dashpots always act
+                mech.append(Mechanism(name, K0=1j * eta * P.seg_K[s]))
+    # dashpots, absorbers and radiating ends always act
     for att in line.attachments:
         if att.dashpot:
             v = _points(ms, att.at)
-            C1 = C1 + att.dashpot * np.outer(v, v)
+            mech.append(Mechanism(f"dashpot at {att.at:g} m", C1=att.dashpot * np.outer(v, v)))
     for j, (node, ab) in enumerate(ms.mesh.absorbers):
         if ab.damping:
             v = ms.absorber_amplitudes[:, j] - ms.nodal[:, ms.mesh.dpn * node]
-            C1 = C1 + ab.damping * np.outer(v, v)
+            mech.append(Mechanism(f"absorber at {ms.mesh.x[node]:g} m",
+                                  C1=ab.damping * np.outer(v, v)))
     for side, e in enumerate(line.ends):
         x = 0.0 if side == 0 else line.length
+        where = ("left", "right")[side]
         if isinstance(e, EndTable) and e.dashpot:
             v = _points(ms, x)
-            C1 = C1 + e.dashpot * np.outer(v, v)
+            mech.append(Mechanism(f"{where} end dashpot", C1=e.dashpot * np.outer(v, v)))
         if line.kind == "duct" and e == "anechoic":
             seg = line.segments[0 if side == 0 else -1]
             v = _points(ms, x)
-            C1 = C1 + seg.area / (seg.rho * seg.c) * np.outer(v, v)
+            mech.append(Mechanism(f"{where} end anechoic",
+                                  C1=seg.area / (seg.rho * seg.c) * np.outer(v, v)))
         if line.kind == "duct" and e in ("unflanged", "flanged"):
             v = _points(ms, x)
-            terms.append((_radiation_term(line, side), np.outer(v, v)))
+            mech.append(Mechanism(f"{where} end radiation",
+                                  terms=((_radiation_term(line, side), np.outer(v, v)),)))
     if line.kind == "duct" and d.wall_losses:
         P = projections(ms)
+        terms = []
         for s, seg in enumerate(line.segments):
             gK, gM = _wall_terms(line, s)
-            terms.append((gK, P.seg_K[s]))
-            terms.append((gM, P.seg_M[s]))
-    return ModalModel(line=line, modes=ms, K0=K0, C1=C1, M1=M1, terms=tuple(terms))
+            terms += [(gK, P.seg_K[s]), (gM, P.seg_M[s])]
+        mech.append(Mechanism("wall losses", terms=tuple(terms)))
+    K0 = np.diag(wn ** 2).astype(complex)
+    C1 = np.zeros((N, N))
+    M1 = np.eye(N, dtype=complex)
+    terms_all: list = []
+    for m in mech:
+        if m.K0 is not None:
+            K0 = K0 + m.K0
+        if m.C1 is not None:
+            C1 = C1 + m.C1
+        if m.M1 is not None:
+            M1 = M1 + m.M1
+        terms_all += list(m.terms)
+    return ModalModel(line=line, modes=ms, K0=K0, C1=C1, M1=M1, terms=tuple(terms_all),
+                      mechanisms=tuple(mech))
 
 
 def _zeta_per_mode(zeta, ms: ModeSet) -> np.ndarray:

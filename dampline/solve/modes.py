@@ -253,6 +253,13 @@ class ModeSet:
     def omega(self) -> np.ndarray:
         return 2.0 * math.pi * self.frequencies
 
+    def first(self, n: int) -> "ModeSet":
+        """The lowest ``n`` modes of this set (no recomputation)."""
+        if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or not 1 <= n <= self.count:
+            raise ModelError("modes", n, "", f"must be a count from 1 to {self.count}")
+        return ModeSet(line=self.line, frequencies=self.frequencies[:n], mesh=self.mesh,
+                       nodal=self.nodal[:n], n_rigid=min(self.n_rigid, int(n)))
+
     @property
     def absorber_amplitudes(self) -> np.ndarray:
         return self.nodal[:, self.mesh.n_line_dofs:]

@@ -1,0 +1,228 @@
+"""Per-mode damping: the modal table and the coupling that damping puts between modes.
+
+Single-mode relations used in the table (any vibration text, e.g. Inman,
+Engineering Vibration; Thomson, Theory of Vibration): Q = 1 / (2 zeta) = 1 / eta
+at resonance, half-power bandwidth = 2 zeta f_n = eta f_n, and the peak of one
+mode's receptance phi_n(x_r) phi_n(x_d) / (w_n^2 eta_n).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.linalg
+
+from .errors import ModelError
+from .model.line import Line
+from .solve.exact import check_position, check_request, frf
+from .solve.modal import ModalModel, modal_model, modal_response, resolve_modes
+from .solve.modes import ModeSet
+
+__all__ = ["ModalTable", "modal_table", "Coupling", "coupling"]
+
+
+@dataclass(frozen=True, eq=False)
+class ModalTable:
+    """Columns by name (``table["Q"]`` is an array); ``shares`` gives each damping
+    mechanism's loss factor per mode (they add up to the decoupled ``loss_factor``)."""
+
+    columns: dict[str, np.ndarray]
+    units: dict[str, str]
+    shares: dict[str, np.ndarray] = field(default_factory=dict)
+
+    def __getitem__(self, name: str) -> np.ndarray:
+        try:
+            return self.columns[name]
+        except KeyError:
+            raise ModelError("column", name, "", f"unknown column (use {', '.join(self.columns)})") \
+                from None
+
+    def __len__(self) -> int:
+        return len(self.columns["frequency"])
+
+    def keys(self):
+        return self.columns.keys()
+
+    def limiting_mechanism(self) -> list[str]:
+        """For each mode, the mechanism that contributes most of its damping."""
+        if not self.shares:
+            return ["" for _ in range(len(self))]
+        names = list(self.shares)
+        S = np.vstack([np.nan_to_num(self.shares[n]) for n in names])
+        return [names[i] if S[:, j].max() > 0 else "" for j, i in enumerate(S.argmax(axis=0))]
+
+    def to_csv(self, path=None) -> str:
+        """The table as CSV text (header with units); written to ``path`` if given."""
+        names = list(self.columns) + [f"share: {n}" for n in self.shares]
+        head = ",".join(f"{n} [{self.units.get(n, '')}]" if self.units.get(n) else n
+                        for n in names)
+        cols = list(self.columns.values()) + list(self.shares.values())
+        rows = [",".join(f"{c[i]:.10g}" for c in cols) for i in range(len(self))]
+        text = "\n".join([head] + rows) + "\n"
+        if path is not None:
+            from .model.io import write_text_atomic
+            write_text_atomic(path, text)
+        return text
+
+    def __repr__(self) -> str:
+        show = ["mode", "frequency", "damping_ratio", "loss_factor", "Q", "bandwidth"]
+        show += [c for c in ("peak",) if c in self.columns]
+        lines = ["  ".join(f"{c:>13s}" for c in show + ["limited by"])]
+        lim = self.limiting_mechanism()
+        for i in range(len(self)):
+            cells = [f"{self.columns[c][i]:13.6g}" for c in show]
+            lines.append("  ".join(cells + [lim[i]]))
+        return "\n".join(lines)
+
+
+def _damping_ratios(mm: ModalModel):
+    """Coupled damping ratios and damped frequencies from the complex eigenvalues of the
+    damped modal model (polynomial part; frequency-dependent duct terms are taken at each
+    mode's own frequency, on the diagonal). Returns (zeta, f_damped) per mode, or None."""
+    wn = mm.modes.omega
+    N = wn.size
+    if mm.terms:
+        return None
+    Minv = np.linalg.inv(mm.M1)
+    A = np.zeros((2 * N, 2 * N), dtype=complex)
+    A[:N, N:] = np.eye(N)
+    A[N:, :N] = -Minv @ mm.K0
+    A[N:, N:] = -Minv @ mm.C1
+    s = scipy.linalg.eigvals(A)
+    s = s[s.imag > 0]              # one root of each oscillating pair
+    zeta = np.full(N, np.nan)
+    fd = np.full(N, np.nan)
+    el = np.flatnonzero(wn > 0)
+    if s.size < el.size:
+        return None
+    order = np.argsort(np.abs(s))
+    s = s[order][-el.size:] if s.size > el.size else s[order]
+    s = s[np.argsort(np.abs(s))]
+    zeta[el] = -s.real / np.abs(s)
+    fd[el] = s.imag / (2 * math.pi)
+    return zeta, fd
+
+
+def modal_table(line: Line, count: int | ModeSet = 10, *, drive_at: float | None = None,
+                response_at: float | None = None, drive: str = "force") -> ModalTable:
+    """Per-mode table of the damped line.
+
+    Columns (arrays): ``mode``, ``frequency`` (Hz, undamped), ``damped_frequency``
+    (Hz), ``damping_ratio`` (from the complex eigenvalues of the coupled modal model,
+    else decoupled), ``loss_factor`` (decoupled: modal strain energy for loss factors,
+    2 zeta for viscous parts; Johnson and Kienholz 1982), ``Q`` = 1/(2 zeta),
+    ``bandwidth`` (half-power, Hz) = 2 zeta f_n, ``modal_mass`` (kg: the mode scaled
+    to a largest displacement of 1), and with ``drive_at`` and ``response_at`` also
+    ``peak`` (|phi_r phi_d| / (w_n^2 eta_n), the receptance peak the mode alone gives)
+    and ``peak_db`` (dB re 1). Rigid-body rows have frequency 0 and NaN damping.
+    """
+    ms = resolve_modes(line, count)
+    mm = modal_model(line, ms)
+    wn = ms.omega
+    f = ms.frequencies
+    rigid = wn == 0.0
+    shares = {m.name: m.diagonal_loss_factor(wn) for m in mm.mechanisms}
+    eta_diag = np.zeros(ms.count)
+    for v in shares.values():
+        eta_diag = eta_diag + np.nan_to_num(v)
+    eta_diag[rigid] = np.nan
+    coupled = _damping_ratios(mm)
+    if coupled is not None:
+        zeta, fd = coupled
+    else:
+        zeta = eta_diag / 2.0
+        fd = f * np.sqrt(np.clip(1.0 - zeta ** 2, 0.0, None))
+    zeta = np.where(rigid, np.nan, zeta)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        Q = 1.0 / (2.0 * zeta)
+    x = np.linspace(0.0, line.length, 801)
+    peak_disp = np.abs(ms.shape(x)).max(axis=0)
+    cols = {
+        "mode": np.arange(1, ms.count + 1, dtype=float),
+        "frequency": f,
+        "damped_frequency": np.where(rigid, 0.0, fd),
+        "damping_ratio": zeta,
+        "loss_factor": eta_diag,
+        "Q": Q,
+        "bandwidth": np.where(rigid, np.nan, 2.0 * zeta * f),
+        "modal_mass": 1.0 / peak_disp ** 2,
+    }
+    units = {"frequency": "Hz", "damped_frequency": "Hz", "bandwidth": "Hz",
+             "modal_mass": "kg m^2" if line.kind == "torsion" else "kg"}
+    if drive_at is not None or response_at is not None:
+        if drive_at is None or response_at is None:
+            raise ModelError("response_at" if response_at is None else "drive_at", None, "m",
+                             "give both drive_at and response_at for the peak columns")
+        drive, _q, xd, _side = check_request(line, drive, None, drive_at)
+        xr = float(check_position(line, "response_at", response_at)[0])
+        pd = ms.shape([xd], derivative=1 if drive == "moment" else 0)[0]
+        pr = ms.shape([xr])[0]
+        eta_peak = np.where(np.isfinite(zeta), 2.0 * zeta, eta_diag)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            peak = np.abs(pd * pr) / (wn ** 2 * eta_peak)
+            cols["peak"] = np.where(rigid, np.nan, peak)
+            cols["peak_db"] = 20.0 * np.log10(cols["peak"])
+    return ModalTable(columns=cols, units=units, shares=shares)
+
+
+@dataclass(frozen=True, eq=False)
+class Coupling:
+    """How damping couples the modes.
+
+    ``matrix``: |B_ij| / sqrt(|B_ii B_jj|) of the modal damping matrix B (stiffness
+    units, each pair at its mean frequency); ``index``: per mode, the sum of its
+    row of that normalised matrix off the diagonal (0 when damping leaves it alone); ``peak_difference_db``: per elastic
+    mode, the decoupled ("diagonal") peak level minus the coupled ("full") one at the
+    chosen points, in dB; ``proportional``: True when B is diagonal.
+    """
+
+    frequencies: np.ndarray
+    damping: np.ndarray
+    matrix: np.ndarray
+    index: np.ndarray
+    peak_difference_db: np.ndarray
+    proportional: bool
+
+
+def coupling(line: Line, count: int | ModeSet = 10, *, drive_at: float | None = None,
+             response_at: float | None = None, points_per_peak: int = 401) -> Coupling:
+    """Damping coupling of the modes of ``line`` and what ignoring it costs at each peak.
+
+    Drive and response default to the right end (the left one if the right is held).
+    Each peak is resolved on its own fine grid (+-4 half-power bandwidths).
+    """
+    ms = resolve_modes(line, count)
+    mm = modal_model(line, ms)
+    B = mm.damping_matrix()
+    d = np.sqrt(np.abs(np.diag(B)))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        Mn = np.abs(B) / np.outer(d, d)
+    Mn = np.where(np.isfinite(Mn), Mn, 0.0)
+    index = Mn.sum(axis=1) - np.diag(Mn)
+    if drive_at is None:
+        drive_at = line.length
+    if response_at is None:
+        response_at = drive_at
+    _drv, _q, xd, _s = check_request(line, "force" if line.kind != "duct" else "volume_velocity",
+                                     None, drive_at)
+    xr = check_position(line, "response_at", response_at)[:1]
+    wn = ms.omega
+    tab = modal_table(line, ms)
+    zeta = tab["damping_ratio"]
+    diff = np.full(ms.count, np.nan)
+    el = np.flatnonzero((wn > 0) & np.isfinite(zeta))
+    if el.size:
+        half = np.maximum(4.0 * zeta[el] * wn[el], 1e-6 * wn[el])
+        grid = wn[el, None] + np.linspace(-1.0, 1.0, points_per_peak)[None, :] * half[:, None]
+        grid = np.clip(grid, 1e-9 * wn[el].max(), None)
+        w = grid.ravel()
+        phi_d = ms.shape([xd])[0]
+        phi_r = ms.shape(xr)
+        full = np.abs(modal_response(mm, w, phi_d, phi_r, "full")[:, 0]).reshape(grid.shape)
+        diag = np.abs(modal_response(mm, w, phi_d, phi_r, "diagonal")[:, 0]).reshape(grid.shape)
+        with np.errstate(divide="ignore"):
+            diff[el] = 20 * np.log10(diag.max(axis=1)) - 20 * np.log10(full.max(axis=1))
+    return Coupling(frequencies=ms.frequencies, damping=B, matrix=Mn, index=index,
+                    peak_difference_db=diff, proportional=mm.proportional)

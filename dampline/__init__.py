@@ -16,6 +16,7 @@ from .model.sections import Section
 from .results import FRF, Peaks
 from .solve import ModeSet, frf, modes, natural_frequencies
 from .analysis import Coupling, ModalTable, coupling, modal_table
+from . import studies
 
 __version__ = "0.1.0"
 
@@ -23,5 +24,5 @@ __all__ = [
     "ModelError", "Line", "Segment", "EndTable", "Attachment", "Absorber", "Damping",
     "load", "save", "dumps", "frf", "natural_frequencies", "modes", "ModeSet", "FRF",
     "Peaks", "Section", "sections", "modal_table", "ModalTable", "coupling", "Coupling",
-    "__version__",
+    "studies", "__version__",
 ]

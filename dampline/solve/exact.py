@@ -67,9 +67,9 @@ def check_position(line: Line, key: str, x) -> np.ndarray:
         raise ModelError(key, x, "m", "must be a position or a non-empty list of positions")
     L = line.length
     tol = END_SNAP * L
-    for v in xs:
-        if not np.isfinite(v) or v < -tol or v > L + tol:
-            raise ModelError(key, float(v), "m", f"is off the line (0 to {L:g} m)")
+    bad = ~np.isfinite(xs) | (xs < -tol) | (xs > L + tol)
+    if bad.any():
+        raise ModelError(key, float(xs[bad][0]), "m", f"is off the line (0 to {L:g} m)")
     # positions within END_SNAP * L of an end are that end
     xs = np.where(xs <= tol, 0.0, np.where(xs >= L - tol, L, xs))
     return np.clip(xs, 0.0, L)

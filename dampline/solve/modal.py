@@ -26,9 +26,9 @@ that every frequency again costs one matrix product; only the
 frequency-dependent duct terms need a dense solve per frequency.
 
 The quasi-static residual of the modes left out (``residual=True``) is the
-exact response at a low frequency w0 minus the kept modes' part of it: the sum
-over n > N of phi_n phi_n^T / D_n(w0), which differs from the static residual
-by O(w0^2 / w_(N+1)^2) and keeps the left-out modes' loss factors.
+exact undamped response at a low frequency w0 minus the kept modes' part of it,
+damped as one pseudo-mode with the strain-energy-weighted damping of its own
+shape (see :func:`residual_field`).
 """
 
 from __future__ import annotations
@@ -362,26 +362,53 @@ def _state_space(mm: ModalModel):
 _BLOCK = 512
 
 
-def modal_response(mm: ModalModel, omega: np.ndarray, phi_d: np.ndarray, phi_r: np.ndarray,
-                   coupling: str) -> np.ndarray:
-    """sum over modes of phi_r D(w)^-1 phi_d: (n_freq, n_resp) per unit generalised load."""
-    w = np.asarray(omega, dtype=float)
+def modal_coefficients(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, phi_r: np.ndarray,
+                       coupling: str):
+    """(A, Bt) with the response A @ Bt, A (n_freq, m) and Bt (m, n_resp): m = N for
+    decoupled or proportional damping, 2N in state space; None when D has
+    frequency-dependent terms or ill-conditioned complex modes (solve per frequency)."""
     if coupling == "diagonal" or mm.proportional:
         d = mm.dynamic_matrix(w, diagonal=True)
         with np.errstate(divide="ignore", invalid="ignore"):
-            return (phi_d[None, :] / d) @ phi_r.T
-    if not mm.terms:
-        ss = _state_space(mm)
-        if ss is not None:
-            form, lam, left, right = ss
-            b = right @ phi_d
-            a = phi_r @ left                          # (n_resp, m)
-            if form == "k":
-                poles = lam[None, :] - (w * w)[:, None]
-            else:
-                poles = 1j * w[:, None] - lam[None, :]
-            with np.errstate(divide="ignore", invalid="ignore"):
-                return (b[None, :] / poles) @ a.T
+            return (1.0 / d) * phi_d[None, :], phi_r.T
+    if mm.terms:
+        return None
+    ss = _state_space(mm)
+    if ss is None:
+        return None
+    form, lam, left, right = ss
+    b = right @ phi_d
+    a = phi_r @ left                          # (n_resp, m)
+    if form == "k":
+        poles = lam[None, :] - (w * w)[:, None]
+    else:
+        poles = 1j * w[:, None] - lam[None, :]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return (1.0 / poles) * b[None, :], a.T
+
+
+def modal_response(mm: ModalModel, omega: np.ndarray, phi_d: np.ndarray, phi_r: np.ndarray,
+                   coupling: str, extra: tuple[np.ndarray, np.ndarray] | None = None
+                   ) -> np.ndarray:
+    """sum over modes of phi_r D(w)^-1 phi_d: (n_freq, n_resp) per unit generalised load.
+    ``extra`` = (a(w), r) adds a(w) r, folded into the same matrix product (the residual)."""
+    w = np.asarray(omega, dtype=float)
+    if extra is not None:
+        coef = modal_coefficients(mm, w, phi_d, phi_r, coupling)
+        if coef is not None:
+            A, Bt = coef
+            A = np.concatenate([A, extra[0][:, None]], axis=1)
+            Bt = np.concatenate([Bt, extra[1][None, :]], axis=0)
+            return A @ Bt
+        return modal_response(mm, w, phi_d, phi_r, coupling) + extra[0][:, None] * extra[1][None, :]
+    if w.size <= 8 and not (coupling == "diagonal" or mm.proportional):
+        # a handful of frequencies (the residual's w0): direct solves beat an eigensolution
+        D = mm.dynamic_matrix(w)
+        q = np.linalg.solve(D, np.broadcast_to(phi_d, (w.size, phi_d.size))[..., None])[..., 0]
+        return q @ phi_r.T
+    coef = modal_coefficients(mm, w, phi_d, phi_r, coupling)
+    if coef is not None:
+        return coef[0] @ coef[1]
     out = np.empty((w.size, phi_r.shape[0]), dtype=complex)
     for i in range(0, w.size, _BLOCK):
         D = mm.dynamic_matrix(w[i:i + _BLOCK])
@@ -390,36 +417,118 @@ def modal_response(mm: ModalModel, omega: np.ndarray, phi_d: np.ndarray, phi_r: 
     return out
 
 
+def _undamped(line: Line) -> Line:
+    """The same line without any damping: no model, loss factors, dashpots or radiation."""
+    from ..model.line import Attachment, Damping
+    segs = tuple(type(sg)(**{**sg.__dict__, "eta": None}) for sg in line.segments)
+    atts = []
+    for a in line.attachments:
+        ab = a.absorber
+        if ab is not None:
+            ab = type(ab)(mass=ab.mass, stiffness=ab.stiffness, damping=0.0)
+        kw = {k: getattr(a, k) for k in ("mass", "spring", "rot_spring", "rot_inertia")}
+        if any(v is not None for v in kw.values()) or ab is not None:
+            atts.append(Attachment(at=a.at, absorber=ab, **kw))
+    ends = tuple(e if isinstance(e, str) else EndTable(spring=e.spring, mass=e.mass,
+                                                       rot_spring=e.rot_spring,
+                                                       rot_inertia=e.rot_inertia)
+                 for e in line.ends)
+    if line.kind == "duct":
+        # radiating ends keep their end-correction mass (the modes' own support)
+        ends = tuple("closed" if e == "anechoic" else e for e in ends)
+    return line.replace(segments=segs, attachments=tuple(atts), ends=ends, damping=Damping())
+
+
 def residual_field(mm: ModalModel, xd: float, drive: str, xr: np.ndarray, order: int
-                   ) -> tuple[np.ndarray, float]:
+                   ) -> tuple[np.ndarray, Callable[[np.ndarray], np.ndarray]]:
     """Residual of the modes left out, for a unit force (or moment, or analogue load) at
-    xd and the field derivative ``order`` at xr: the exact response at a low frequency
-    w0 (a tenth of the first elastic natural frequency) minus the kept modes' share of
-    it, both with the line's damping where the exact solver can represent it (so the
-    left-out modes keep their loss factors), undamped under modal damping."""
+    xd, as the field derivative ``order`` at xr, and its damping factor.
+
+    The left-out modes respond quasi-statically, so together they act as one
+    pseudo-mode whose shape r(x) is the exact undamped response at a low frequency w0
+    (a tenth of the first elastic natural frequency) minus the kept modes' share:
+    r = sum over n > N of phi_n phi_n(x_d) / (w_n^2 - w0^2), within O(w0^2/w_(N+1)^2)
+    of the static residual. Its damping is that of its own strain and kinetic energy,
+    the modal strain energy rule of Johnson and Kienholz applied to r: with
+    k_R = r^T K r, h_R = sum eta_s r^T K_s r, c_R = r^T C r and m_R = r^T M r the
+    residual at w is r k_R / (k_R + i h_R + i w (c_R + alpha m_R + beta k_R)).
+    (Measured on a stepped bar with one segment at eta 0.3: this keeps the coupled
+    modal sum within 0.05 dB of exact, where an undamped residual leaves 0.23 dB and
+    a residual carrying the coupled damping of the kept modes 0.22 dB.)"""
     from .exact import _solve_dense, _solve_second_order
     ms, line = mm.modes, mm.line
     wn = ms.omega
     if ms.count <= ms.n_rigid:
-        return np.zeros(len(xr)), 0.0
+        return np.zeros(len(xr)), lambda w: np.ones(np.shape(w))
     w0 = np.array([0.1 * wn[ms.n_rigid]])
     load = "moment" if drive == "moment" else "force"
-    if line.damping.model == "modal":
-        target = line.replace(damping=type(line.damping)())      # the undamped line's
-        mm0 = modal_model(target, ms)
-    else:
-        target, mm0 = line, mm
+    target = _undamped(line)
     mesh = build_mesh(target, extra=(xd,))
     solve = _solve_second_order if mesh.dpn == 1 else _solve_dense
     U, S, k = solve(mesh, w0, xd, load, None, (False, False))
-    p, xi = mesh.locate(xr)
-    exact = interior_field(mesh, S, k, U, p, xi, order)[0]
     phi_d = _drive_vector(ms, xd, drive)
-    phi_r = ms.shape(xr, derivative=order)                 # (n_resp, N)
-    # the left-out modes' share is taken with full coupling: it estimates those modes,
-    # not the error of a decoupled sum over the kept ones
-    kept = modal_response(mm0, w0, phi_d, phi_r, "full")[0]
-    return exact - kept, float(w0[0])
+    share = phi_d / (wn ** 2 - w0[0] ** 2)
+
+    def r_at(x, o):
+        p, xi = mesh.locate(x)
+        return interior_field(mesh, S, k, U, p, xi, o)[0].real - ms.shape(x, derivative=o) @ share
+
+    R = r_at(xr, order)
+    d = line.damping
+    if d.model == "modal":
+        return R, lambda w: np.ones(np.shape(w))
+    # energies of the residual shape, segment by segment (Gauss-Legendre per piece)
+    dorder = 2 if mesh.dpn == 2 else 1
+    _, kk = piece_wavenumbers(ms.mesh, wn, damped=False)
+    nq = int(min(600, max(16, np.ceil(1.2 * np.max(kk * ms.mesh.piece_h, initial=0.0)) + 16)))
+    t, wq = np.polynomial.legendre.leggauss(nq)
+    xs, ws, segs = [], [], []
+    for p in range(len(mesh.piece_h)):
+        lo, h = mesh.piece_x0[p], mesh.piece_h[p]
+        xs.append(lo + 0.5 * h * (t + 1.0))
+        ws.append(0.5 * h * wq)
+        segs.append(np.full(nq, mesh.piece_seg[p]))
+    xs, ws, segs = np.concatenate(xs), np.concatenate(ws), np.concatenate(segs)
+    coef = np.array([static_coefficients(line.kind, sg) for sg in line.segments])
+    etas = np.array([segment_eta(line, sg) if line.kind != "duct" else 0.0
+                     for sg in line.segments])
+    e_strain = coef[segs, 0] * ws * r_at(xs, dorder) ** 2
+    kR = float(e_strain.sum())
+    hR = float((etas[segs] * e_strain).sum())
+    mR = float((coef[segs, 1] * ws * r_at(xs, 0) ** 2).sum())
+    cR = 0.0
+    for att in line.attachments:
+        r0 = r_at(np.array([att.at]), 0)[0]
+        kR += (att.spring or 0.0) * r0 ** 2
+        mR += (att.mass or 0.0) * r0 ** 2
+        cR += (att.dashpot or 0.0) * r0 ** 2
+        if mesh.dpn == 2:
+            r1 = r_at(np.array([att.at]), 1)[0]
+            kR += (att.rot_spring or 0.0) * r1 ** 2
+            mR += (att.rot_inertia or 0.0) * r1 ** 2
+    for side, e in enumerate(line.ends):
+        x = np.array([0.0 if side == 0 else line.length])
+        r0 = r_at(x, 0)[0]
+        if isinstance(e, EndTable):
+            kR += e.spring * r0 ** 2
+            mR += e.mass * r0 ** 2
+            cR += e.dashpot * r0 ** 2
+            if mesh.dpn == 2:
+                r1 = r_at(x, 1)[0]
+                kR += e.rot_spring * r1 ** 2
+                mR += e.rot_inertia * r1 ** 2
+        elif line.kind == "duct" and e == "anechoic":
+            seg = line.segments[0 if side == 0 else -1]
+            cR += seg.area / (seg.rho * seg.c) * r0 ** 2
+    alpha = (d.alpha or 0.0) if d.model == "rayleigh" else 0.0
+    beta = (d.beta or 0.0) if d.model == "rayleigh" else 0.0
+    if kR <= 0.0:
+        return R, lambda w: np.ones(np.shape(w))
+
+    def scale(w):
+        w = np.asarray(w, dtype=float)
+        return kR / (kR + 1j * hR + 1j * w * (cR + alpha * mR + beta * kR))
+    return R, scale
 
 
 _ORDER = {"receptance": 0, "mobility": 0, "accelerance": 0, "pressure": 0, "rotation": 1,
@@ -454,15 +563,11 @@ def modal_frf(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, 
     order = _ORDER.get(quantity, 3 if line.kind == "bending" else 1)
     phi_d = _drive_vector(ms, xd, drive)
     phi_r = ms.shape(xr, derivative=order)                       # (n_resp, N)
-    H = modal_response(mm, omega, phi_d, phi_r, coupling)        # field per unit load
+    extra = None
     if residual:
-        R, w0 = residual_field(mm, xd, drive, xr, order)
-        scale = np.ones_like(omega, dtype=complex)
-        if line.damping.model == "rayleigh" and line.damping.beta:
-            # left-out modes are stiffness-controlled: their share follows K (1 + i w beta)
-            b = line.damping.beta
-            scale = (1.0 + 1j * w0 * b) / (1.0 + 1j * omega * b)
-        H = H + scale[:, None] * R[None, :]
+        R, scale = residual_field(mm, xd, drive, xr, order)
+        extra = (scale(omega).astype(complex), R.astype(complex))
+    H = modal_response(mm, omega, phi_d, phi_r, coupling, extra)  # field per unit load
     if drive == "volume_velocity":
         H = H * (1j * w)                        # analogue load of a source Q: i w Q
     if quantity in ("receptance", "pressure", "rotation"):

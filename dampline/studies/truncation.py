@@ -28,8 +28,10 @@ def local_db_error(H: np.ndarray, H_ref: np.ndarray, freqs_hz: np.ndarray,
     ref = np.empty_like(a)
     for i, (l, h) in enumerate(zip(lo, hi)):
         ref[i] = a[l:max(h, l + 1)].max(axis=0)
+    diff = np.abs(H - H_ref)
     with np.errstate(divide="ignore", invalid="ignore"):
-        return 20.0 * np.log10(1.0 + np.abs(H - H_ref) / ref)
+        rel = np.where(diff == 0.0, 0.0, diff / ref)     # a held point: both exactly zero
+    return 20.0 * np.log10(1.0 + rel)
 
 
 @dataclass(frozen=True, eq=False)

@@ -22,7 +22,7 @@ import numpy as np
 
 from ..errors import ModelError
 from ..families import static_coefficients
-from ..model.line import Line
+from ..model.line import EndTable, Line
 from .mesh import (Mesh, assemble, build_mesh, free_dofs, held_dofs, interior_field,
                    piece_wavenumbers, static_field, static_stiffness)
 
@@ -117,13 +117,59 @@ class _Counter:
         return ev[np.arange(len(q)), q]
 
 
+def _rigid_motions(mesh: Mesh) -> np.ndarray:
+    """Nodal vectors of the rigid-body motions the supports leave free, (n_rigid, n_dof).
+
+    Found from the supports, not from a numerical null space (a very short segment makes
+    the static stiffness so graded that an eigenvalue threshold misreads it): the rigid
+    motions of a line are u = a (second order) or w = a + b x (bending); every held DOF
+    and every spring to ground is a constraint row on (a, b), and the rigid motions are
+    the null space of those rows. Absorber masses move with their attachment point.
+    """
+    line = mesh.line
+    L = line.length
+    rows = []
+    for dof in held_dofs(mesh):
+        node, j = divmod(dof, mesh.dpn)
+        rows.append([1.0, mesh.x[node] / L] if j == 0 else [0.0, 1.0])
+    for node, _m, s, _c, _ri, rs in mesh.lumped:
+        if s:
+            rows.append([1.0, mesh.x[node] / L])
+        if rs:
+            rows.append([0.0, 1.0])
+    for side, e in enumerate(line.ends):
+        x = 0.0 if side == 0 else 1.0
+        if isinstance(e, EndTable):
+            if e.spring:
+                rows.append([1.0, x])
+            if e.rot_spring:
+                rows.append([0.0, 1.0])
+        elif line.kind == "duct" and e in ("unflanged", "flanged"):
+            rows.append([1.0, x])       # the end correction's analogue spring
+    ncoef = 2 if mesh.dpn == 2 else 1
+    C = np.array(rows)[:, :ncoef] if rows else np.zeros((0, ncoef))
+    if C.shape[0]:
+        _u, sv, vt = np.linalg.svd(C)
+        rank = int(np.sum(sv > 1e-9 * sv.max()))
+        basis = vt[rank:]
+    else:
+        basis = np.eye(ncoef)
+    out = np.zeros((basis.shape[0], mesh.n_dof))
+    for r, coef in enumerate(basis):
+        a, b = coef[0], (coef[1] / L if ncoef == 2 else 0.0)
+        w = a + b * mesh.x
+        if mesh.dpn == 1:
+            out[r, :mesh.n_nodes] = w
+        else:
+            out[r, 0:mesh.n_line_dofs:2] = w
+            out[r, 1:mesh.n_line_dofs:2] = b
+        for j, (node, _ab) in enumerate(mesh.absorbers):
+            out[r, mesh.n_line_dofs + j] = w[node]
+    return out
+
+
 def _rigid_count(mesh: Mesh, free: np.ndarray) -> int:
-    K0 = static_stiffness(mesh)[np.ix_(free, free)]
-    if K0.size == 0:
-        return 0
-    d = np.sqrt(np.abs(np.diag(K0))) + 1e-300       # balance translations and rotations
-    ev = np.linalg.eigvalsh(K0 / d[:, None] / d[None, :])
-    return int(np.sum(np.abs(ev) <= 1e-10 * np.abs(ev).max()))
+    return _rigid_motions(mesh).shape[0]
 
 
 def _omega_scale(line: Line, count: int) -> float:
@@ -384,9 +430,7 @@ def _mode_vectors(counter: _Counter, omega: np.ndarray, n_rigid: int) -> np.ndar
     count = omega.size
     nodal = np.zeros((count, mesh.n_dof))
     if n_rigid:
-        K0 = static_stiffness(mesh)[np.ix_(free, free)]
-        _ev, vec = np.linalg.eigh(K0)
-        nodal[:n_rigid, free] = vec[:, :n_rigid].T
+        nodal[:n_rigid] = _rigid_motions(mesh)[:n_rigid]
     el = np.arange(n_rigid, count)
     if el.size:
         w = omega[el]

@@ -85,6 +85,17 @@ def _damping_ratios(mm: ModalModel):
     N = wn.size
     if mm.terms:
         return None
+    el = np.flatnonzero(wn > 0)
+    zeta = np.full(N, np.nan)
+    fd = np.full(N, np.nan)
+    if not np.any(mm.C1):
+        # hysteretic only: eigenvalues l = w_n^2 (1 + i eta) of M1^-1 K0; at resonance
+        # such a mode behaves as zeta = eta / 2 (peak 1/eta, bandwidth eta f_n)
+        lam = scipy.linalg.eigvals(np.linalg.solve(mm.M1, mm.K0))
+        lam = lam[np.argsort(lam.real)][-el.size:] if el.size else lam[:0]
+        zeta[el] = 0.5 * lam.imag / lam.real
+        fd[el] = np.sqrt(lam.real) / (2 * math.pi)
+        return zeta, fd, True
     Minv = np.linalg.inv(mm.M1)
     A = np.zeros((2 * N, 2 * N), dtype=complex)
     A[:N, N:] = np.eye(N)
@@ -92,9 +103,6 @@ def _damping_ratios(mm: ModalModel):
     A[N:, N:] = -Minv @ mm.C1
     s = scipy.linalg.eigvals(A)
     s = s[s.imag > 0]              # one root of each oscillating pair
-    zeta = np.full(N, np.nan)
-    fd = np.full(N, np.nan)
-    el = np.flatnonzero(wn > 0)
     if s.size < el.size:
         return None
     order = np.argsort(np.abs(s))
@@ -102,7 +110,7 @@ def _damping_ratios(mm: ModalModel):
     s = s[np.argsort(np.abs(s))]
     zeta[el] = -s.real / np.abs(s)
     fd[el] = s.imag / (2 * math.pi)
-    return zeta, fd
+    return zeta, fd, False
 
 
 def modal_table(line: Line, count: int | ModeSet = 10, *, drive_at: float | None = None,
@@ -115,7 +123,8 @@ def modal_table(line: Line, count: int | ModeSet = 10, *, drive_at: float | None
     2 zeta for viscous parts; Johnson and Kienholz 1982), ``Q`` = 1/(2 zeta),
     ``bandwidth`` (half-power, Hz) = 2 zeta f_n, ``modal_mass`` (kg: the mode scaled
     to a largest displacement of 1), and with ``drive_at`` and ``response_at`` also
-    ``peak`` (|phi_r phi_d| / (w_n^2 eta_n), the receptance peak the mode alone gives)
+    ``peak`` (the receptance peak the mode alone gives: |phi_r phi_d| / (w_n^2 eta) for
+    hysteretic damping, with 2 zeta sqrt(1 - zeta^2) in place of eta for viscous)
     and ``peak_db`` (dB re 1). Rigid-body rows have frequency 0 and NaN damping.
     """
     ms = resolve_modes(line, count)
@@ -123,17 +132,28 @@ def modal_table(line: Line, count: int | ModeSet = 10, *, drive_at: float | None
     wn = ms.omega
     f = ms.frequencies
     rigid = wn == 0.0
-    shares = {m.name: m.diagonal_loss_factor(wn) for m in mm.mechanisms}
-    eta_diag = np.zeros(ms.count)
-    for v in shares.values():
-        eta_diag = eta_diag + np.nan_to_num(v)
-    eta_diag[rigid] = np.nan
+    # decoupled loss factor of each mode: its own pole w^2 = D_nn / M1_nn at w_n,
+    # eta = Im / Re of that complex w^2 (exact for a complex modulus or bulk modulus);
+    # the mechanisms' first-order shares are scaled to add up to it
+    safe = np.where(rigid, 1.0, wn)
+    lam = np.diag(mm.K0) + 1j * safe * np.diag(mm.C1)
+    for g, G in mm.terms:
+        lam = lam + g(safe) * np.diag(G)
+    lam = lam / np.diag(mm.M1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        eta_diag = np.where(rigid, np.nan, lam.imag / lam.real)
+    raw = {m.name: np.nan_to_num(m.diagonal_loss_factor(wn)) for m in mm.mechanisms}
+    total = sum(raw.values()) if raw else np.zeros(ms.count)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        shares = {k: np.where(rigid, np.nan, np.where(total != 0, v / total * eta_diag, 0.0))
+                  for k, v in raw.items()}
     coupled = _damping_ratios(mm)
     if coupled is not None:
-        zeta, fd = coupled
+        zeta, fd, hysteretic = coupled
     else:
         zeta = eta_diag / 2.0
         fd = f * np.sqrt(np.clip(1.0 - zeta ** 2, 0.0, None))
+        hysteretic = True
     zeta = np.where(rigid, np.nan, zeta)
     with np.errstate(divide="ignore", invalid="ignore"):
         Q = 1.0 / (2.0 * zeta)
@@ -159,7 +179,10 @@ def modal_table(line: Line, count: int | ModeSet = 10, *, drive_at: float | None
         xr = float(check_position(line, "response_at", response_at)[0])
         pd = ms.shape([xd], derivative=1 if drive == "moment" else 0)[0]
         pr = ms.shape([xr])[0]
-        eta_peak = np.where(np.isfinite(zeta), 2.0 * zeta, eta_diag)
+        # receptance peak of one mode: 1/(eta k) hysteretic, 1/(2 zeta sqrt(1 - zeta^2) k)
+        # viscous (any vibration text)
+        z = np.where(np.isfinite(zeta), zeta, eta_diag / 2.0)
+        eta_peak = 2.0 * z if hysteretic else 2.0 * z * np.sqrt(np.clip(1.0 - z * z, 0.0, None))
         with np.errstate(divide="ignore", invalid="ignore"):
             peak = np.abs(pd * pr) / (wn ** 2 * eta_peak)
             cols["peak"] = np.where(rigid, np.nan, peak)
@@ -186,6 +209,12 @@ class Coupling:
     proportional: bool
 
 
+def _held_ends(line: Line) -> set[int]:
+    """Ends (0 left, 1 right) whose displacement (pressure for ducts) is held at zero."""
+    return {side for side, e in enumerate(line.ends)
+            if isinstance(e, str) and e in ("fixed", "open", "clamped", "pinned")}
+
+
 def coupling(line: Line, count: int | ModeSet = 10, *, drive_at: float | None = None,
              response_at: float | None = None, points_per_peak: int = 401) -> Coupling:
     """Damping coupling of the modes of ``line`` and what ignoring it costs at each peak.
@@ -202,7 +231,9 @@ def coupling(line: Line, count: int | ModeSet = 10, *, drive_at: float | None = 
     Mn = np.where(np.isfinite(Mn), Mn, 0.0)
     index = Mn.sum(axis=1) - np.diag(Mn)
     if drive_at is None:
-        drive_at = line.length
+        # the right end, unless its displacement is held; then the left end, or the middle
+        held = {mesh_dof for mesh_dof in _held_ends(line)}
+        drive_at = line.length if 1 not in held else (0.0 if 0 not in held else 0.5 * line.length)
     if response_at is None:
         response_at = drive_at
     _drv, _q, xd, _s = check_request(line, "force" if line.kind != "duct" else "volume_velocity",

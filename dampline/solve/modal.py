@@ -190,9 +190,9 @@ class Mechanism:
     terms: tuple = ()
 
     def diagonal_loss_factor(self, wn: np.ndarray) -> np.ndarray:
-        """Each mode's loss factor from this mechanism alone, Im D_nn(w_n) / w_n^2
-        (the modal strain energy loss factor of Johnson and Kienholz for loss factors,
-        2 zeta for viscous parts)."""
+        """Each mode's loss factor from this mechanism alone, to first order:
+        Im D_nn(w_n) / w_n^2 (the modal strain energy loss factor of Johnson and
+        Kienholz for loss factors, 2 zeta for viscous parts)."""
         B = np.zeros(wn.size)
         if self.K0 is not None:
             B += np.diag(self.K0).imag

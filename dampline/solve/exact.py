@@ -20,8 +20,9 @@ from ..families import FAMILIES
 from ..model.line import END_SNAP, Line
 from ..results import FRF
 from .banded import tridiagonal_solve
+from . import beam
 from .mesh import (Mesh, assemble, assemble_tridiagonal, build_mesh, free_dofs, held_dofs,
-                   interior_field, piece_wavenumbers)
+                   interior_field, interior_weights, piece_stiffness, piece_wavenumbers)
 
 __all__ = ["frf", "Drive", "Quantity"]
 
@@ -190,13 +191,25 @@ def frf(line: Line, freqs_hz, drive_at: float = 0.0, response_at=(0.0,), drive: 
 def _exact(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, quantity: str,
            side: int | None) -> np.ndarray:
     omega = 2.0 * math.pi * f
-    mesh = build_mesh(line, extra=(xd,))
     # an imposed velocity replaces the driven end's own (translational) condition
     replaced = (side == 0, side == 1)
-    if mesh.dpn == 1:
-        U, S, k = _solve_second_order(mesh, omega, xd, drive, side, replaced)
+    mesh = build_mesh(line)
+    nf = omega.size
+    particular = None
+    prescribed = None
+    rhs = np.zeros((nf, mesh.n_dof), dtype=complex)
+    if drive == "velocity":
+        node = mesh.node_at(xd)
+        if line.kind == "duct":                 # piston at an end, velocity along +x
+            area = line.segments[0 if side == 0 else -1].area
+            rhs[:, node] = 1j * omega * area * (1.0 if side == 0 else -1.0)
+        else:                                   # structure: imposed displacement 1/(i w)
+            prescribed = (mesh.dpn * node, 1.0 / (1j * omega))
     else:
-        U, S, k = _solve_dense(mesh, omega, xd, drive, side, replaced)
+        amp = 1j * omega if drive == "volume_velocity" else np.ones(nf)   # duct: i w Q
+        particular = _point_load(mesh, omega, xd, 1 if drive == "moment" else 0, amp, rhs)
+    solve = _solve_second_order if mesh.dpn == 1 else _solve_dense
+    U, S, k = solve(mesh, omega, rhs, prescribed, replaced)
     bad = ~np.isfinite(U).all(axis=1)
     if bad.any():
         # exactly singular only at an undamped resonance hit to the last bit:
@@ -204,30 +217,64 @@ def _exact(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, qua
         U[bad] = complex(np.inf, np.inf)
         warnings.warn(f"undamped resonance exactly at {f[bad][:5].tolist()} Hz: the response "
                       "there is infinite (returned as inf)", RuntimeWarning, stacklevel=3)
-    return _response(mesh, omega, S, k, U, xr, quantity)
+    return _response(mesh, omega, S, k, U, xr, quantity, particular)
 
 
-def _solve_second_order(mesh: Mesh, omega, xd, drive, side, replaced):
+def _point_load(mesh: Mesh, omega, x: float, j: int, amp, rhs):
+    """Load a unit point force (j = 0) or moment (j = 1) of amplitude ``amp`` at x into
+    ``rhs``. At a node it is a nodal load. Inside a piece it is not given a node of its
+    own (a node a hair from another would make a piece so short, with a stiffness
+    ~ S/h or EI/h^3, that it swamps the rest of the matrix): the piece is split there
+    only locally, both parts clamped at the piece's ends, and the clamped response
+    u_x = (K_left,22 + K_right,11)^-1 F — a well-conditioned 1x1 or 2x2 solve —
+    gives the equivalent nodal loads (the clamps' reactions, reversed) and the
+    particular solution inside the piece that the nodal solution is added to
+    (exact dynamic stiffness with interior loads: Doyle, Wave Propagation in
+    Structures). Returns (piece, x_local, u_x) or None."""
+    L = mesh.line.length
+    p, xi = mesh.locate(np.array([x]))
+    p, xi = int(p[0]), float(xi[0])
+    h = mesh.piece_h[p]
+    dpn = mesh.dpn
+    tol = END_SNAP * L
+    if xi <= tol or xi >= h - tol:
+        node = p if xi <= tol else p + 1
+        rhs[:, dpn * node + j] += amp
+        return None
+    S, k = piece_wavenumbers(mesh, omega, True)
+    S, k = S[:, p], k[:, p]
+    if dpn == 1:
+        a11, a12 = piece_stiffness(S, k, xi, True)
+        b11, b12 = piece_stiffness(S, k, h - xi, True)
+        with np.errstate(all="ignore"):
+            ux = amp / (a11 + b11)
+        rhs[:, p] -= a12 * ux
+        rhs[:, p + 1] -= b12 * ux
+        return p, xi, ux[:, None]
+    A = beam.piece_stiffness(S, k, xi)
+    B = beam.piece_stiffness(S, k, h - xi)
+    Ksub = A[:, 2:, 2:] + B[:, :2, :2]
+    F = np.zeros((omega.size, 2), dtype=complex)
+    F[:, j] = amp
+    ux = _dense_solve(Ksub, F)
+    rhs[:, 2 * p:2 * p + 2] -= np.einsum("fij,fj->fi", A[:, :2, 2:], ux)
+    rhs[:, 2 * p + 2:2 * p + 4] -= np.einsum("fij,fj->fi", B[:, 2:, :2], ux)
+    return p, xi, ux
+
+
+def _solve_second_order(mesh: Mesh, omega, rhs, prescribed, replaced):
     """Tridiagonal path: absorbers condensed, held nodes only at the ends."""
-    line = mesh.line
     nn, nf = mesh.n_nodes, omega.size
     diag, off, S, k = assemble_tridiagonal(mesh, omega, replaced=replaced)
     U = np.zeros((nf, nn), dtype=complex)
-    rhs = np.zeros((nf, nn), dtype=complex)
-    node_d = mesh.node_at(xd)
+    rhs = rhs[:, :nn].copy()
     held = set(held_dofs(mesh, replaced))
-    if drive == "force":
-        rhs[:, node_d] = 1.0
-    elif drive == "volume_velocity":
-        rhs[:, node_d] = 1j * omega              # analogue load of a source Q: i w Q
-    elif line.kind == "duct":                    # piston at an end, velocity along +x
-        area = line.segments[0 if side == 0 else -1].area
-        rhs[:, node_d] = 1j * omega * area * (1.0 if side == 0 else -1.0)
-    else:                                        # structure: imposed displacement 1/(i w)
-        held.add(node_d)
-        U[:, node_d] = 1.0 / (1j * omega)
-        nb = 1 if node_d == 0 else nn - 2
-        rhs[:, nb] -= off[:, min(node_d, nb)] * U[:, node_d]
+    if prescribed is not None:                   # imposed end displacement
+        node, value = prescribed
+        held.add(node)
+        U[:, node] = value
+        nb = 1 if node == 0 else nn - 2
+        rhs[:, nb] -= off[:, min(node, nb)] * value
     # held nodes can only be the two ends: the free ones are a contiguous run
     lo = 1 if 0 in held else 0
     hi = nn - 1 if (nn - 1) in held else nn
@@ -242,30 +289,25 @@ def _solve_second_order(mesh: Mesh, omega, xd, drive, side, replaced):
 _BLOCK = 256
 
 
-def _solve_dense(mesh: Mesh, omega, xd, drive, side, replaced):
+def _solve_dense(mesh: Mesh, omega, rhs, prescribed, replaced):
     """Bending path: dense blocks of frequencies, one batched LAPACK solve per block."""
     nf, n = omega.size, mesh.n_dof
     U = np.zeros((nf, n), dtype=complex)
-    node_d = mesh.node_at(xd)
     held = held_dofs(mesh, replaced)
-    prescribed = None
-    if drive == "velocity":
-        prescribed = mesh.dpn * node_d
-        held = held + [prescribed]
+    if prescribed is not None:
+        held = held + [prescribed[0]]
     free = free_dofs(mesh, held)
-    load = mesh.dpn * node_d + (1 if drive == "moment" else 0)
     S_all, k_all = [], []
     for a in range(0, nf, _BLOCK):
         w = omega[a:a + _BLOCK]
         K, _ = assemble(mesh, w, damped=True, replaced=replaced)
-        rhs = np.zeros((w.size, n), dtype=complex)
-        if prescribed is None:
-            rhs[:, load] = 1.0
-        else:
-            U[a:a + _BLOCK, prescribed] = 1.0 / (1j * w)
-            rhs -= K[:, :, prescribed] * U[a:a + _BLOCK, prescribed, None]
+        b = rhs[a:a + _BLOCK].copy()
+        if prescribed is not None:
+            dof, value = prescribed
+            U[a:a + _BLOCK, dof] = value[a:a + _BLOCK]
+            b -= K[:, :, dof] * value[a:a + _BLOCK, None]
         Kf = K[:, free[:, None], free[None, :]]
-        U[a:a + _BLOCK, free] = _dense_solve(Kf, rhs[:, free])
+        U[a:a + _BLOCK, free] = _dense_solve(Kf, b[:, free])
         S, k = piece_wavenumbers(mesh, w, True)
         S_all.append(S)
         k_all.append(k)
@@ -287,12 +329,47 @@ def _dense_solve(A: np.ndarray, b: np.ndarray) -> np.ndarray:
         return out
 
 
+def _field(mesh: Mesh, S, k, U, p, xi, order: int, particular) -> np.ndarray:
+    """Interior field from the nodal solution, plus the clamped-piece particular solution
+    of an interior point load in the pieces that hold one."""
+    out = interior_field(mesh, S, k, U, p, xi, order)
+    if particular is None:
+        return out
+    pl, xl, ux = particular
+    cols = np.flatnonzero(p == pl)
+    if cols.size == 0:
+        return out
+    h = mesh.piece_h[pl]
+    Sl, kl = S[:, [pl] * cols.size], k[:, [pl] * cols.size]
+    x = xi[cols]
+    left = x < xl
+    zero = np.zeros_like(ux[:, 0])
+    for sel, length, offset, nodal in ((left, xl, 0.0, "right"), (~left, h - xl, xl, "left")):
+        if not sel.any():
+            continue
+        c = cols[sel]
+        loc = x[sel] - offset
+        if mesh.dpn == 1:
+            A, B = interior_weights(kl[:, sel], length, loc, order)
+            out[:, c] += (B if nodal == "right" else A) * ux[:, :1]
+        else:
+            u = ((zero, zero, ux[:, 0], ux[:, 1]) if nodal == "right"
+                 else (ux[:, 0], ux[:, 1], zero, zero))
+            u = tuple(v[:, None] for v in u)
+            out[:, c] += beam.interior(Sl[:, sel], kl[:, sel], length, loc, u, order)
+    return out
+
+
 def _response(mesh: Mesh, omega: np.ndarray, S: np.ndarray, k: np.ndarray, U: np.ndarray,
-              xr: np.ndarray, quantity: str) -> np.ndarray:
+              xr: np.ndarray, quantity: str, particular=None) -> np.ndarray:
     """The requested quantity at the response points from the exact interior solution."""
     p, xi = mesh.locate(xr)
     w = omega[:, None]
     Sp = S[:, p]
+
+    def interior_field(mesh_, S_, k_, U_, p_, xi_, order):   # noqa: ARG001 - same signature
+        return _field(mesh, S, k, U, p, xi, order, particular)
+
     if quantity in ("receptance", "mobility", "accelerance", "pressure"):
         u = interior_field(mesh, S, k, U, p, xi, 0)
         if quantity == "mobility":

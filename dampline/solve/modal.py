@@ -461,11 +461,12 @@ def residual_field(mm: ModalModel, xd: float, drive: str, xr: np.ndarray, order:
     if ms.count <= ms.n_rigid:
         return np.zeros(len(xr)), lambda w: np.ones(np.shape(w))
     w0 = np.array([0.1 * wn[ms.n_rigid]])
-    load = "moment" if drive == "moment" else "force"
     target = _undamped(line)
     mesh = build_mesh(target, extra=(xd,))
     solve = _solve_second_order if mesh.dpn == 1 else _solve_dense
-    U, S, k = solve(mesh, w0, xd, load, None, (False, False))
+    rhs = np.zeros((1, mesh.n_dof), dtype=complex)
+    rhs[0, mesh.dpn * mesh.node_at(xd) + (1 if drive == "moment" else 0)] = 1.0
+    U, S, k = solve(mesh, w0, rhs, None, (False, False))
     phi_d = _drive_vector(ms, xd, drive)
     share = phi_d / (wn ** 2 - w0[0] ** 2)
 

@@ -61,28 +61,46 @@ def _mul2(A, B):
     return (a0 * b0 + a1 * b2, a0 * b1 + a1 * b3, a2 * b0 + a3 * b2, a2 * b1 + a3 * b3)
 
 
+def _regimes(*arrays):
+    """Broadcast, flatten, and split the indices by |beta h| regime."""
+    arrs = np.broadcast_arrays(*arrays)
+    shape = arrs[0].shape
+    flat = [np.asarray(a, dtype=complex).ravel() for a in arrs]
+    return shape, flat
+
+
 def _parts(EI, beta, h):
-    """(Ds, Fs, Da, Fa) as 4-tuples of arrays (row-major 2x2), both regimes merged."""
-    lam = beta * h
+    """(Ds, Fs, Da, Fa) as 4-tuples of arrays (row-major 2x2); each regime is evaluated
+    only where it applies."""
+    shape, (b1, lam) = _regimes(beta, beta * h)
     small = np.abs(lam) < SMALL
-    b1, b2, b3 = beta, beta ** 2, beta ** 3
-    # large |lambda|: scaled exponentials
-    a = np.exp(-1j * np.where(small, 0.0, lam))
-    b = np.exp(-np.where(small, 0.0, lam))
-    Ds_L = (1 + a, 1 + b, -1j * b1 * (1 - a), -b1 * (1 - b))
-    Fs_L = (1j * b3 * (1 - a), -b3 * (1 - b), b2 * (1 + a), -b2 * (1 + b))
-    Da_L = (1 - a, 1 - b, -1j * b1 * (1 + a), -b1 * (1 + b))
-    Fa_L = (1j * b3 * (1 + a), -b3 * (1 + b), b2 * (1 - a), -b2 * (1 - b))
-    # small |lambda|: Krylov functions about the middle, at z = -lambda/2
-    c0, c1, c2, c3 = _krylov(np.where(small, 0.5 * lam, 0.0))
-    Ds_S = (c0, c2, -b1 * c3, -b1 * c1)
-    Fs_S = (-b3 * c1, -b3 * c3, -b2 * c2, -b2 * c0)
-    Da_S = (-c1, -c3, b1 * c0, b1 * c2)
-    Fa_S = (b3 * c2, b3 * c0, b2 * c3, b2 * c1)
-    pick = lambda S, L: tuple(np.where(small, s, l) for s, l in zip(S, L))  # noqa: E731
-    Fs = tuple(EI * f for f in pick(Fs_S, Fs_L))
-    Fa = tuple(EI * f for f in pick(Fa_S, Fa_L))
-    return pick(Ds_S, Ds_L), Fs, pick(Da_S, Da_L), Fa
+    out = [np.empty(lam.size, dtype=complex) for _ in range(16)]
+    iL = np.flatnonzero(~small)
+    if iL.size:
+        bb, ll = b1[iL], lam[iL]
+        b2, b3 = bb * bb, bb * bb * bb
+        a = np.exp(-1j * ll)
+        b = np.exp(-ll)
+        vals = (1 + a, 1 + b, -1j * bb * (1 - a), -bb * (1 - b),                    # Ds
+                1j * b3 * (1 - a), -b3 * (1 - b), b2 * (1 + a), -b2 * (1 + b),      # Fs
+                1 - a, 1 - b, -1j * bb * (1 + a), -bb * (1 + b),                    # Da
+                1j * b3 * (1 + a), -b3 * (1 + b), b2 * (1 - a), -b2 * (1 - b))      # Fa
+        for o, v in zip(out, vals):
+            o[iL] = v
+    iS = np.flatnonzero(small)
+    if iS.size:
+        bb = b1[iS]
+        b2, b3 = bb * bb, bb * bb * bb
+        c0, c1, c2, c3 = _krylov(0.5 * lam[iS])
+        vals = (c0, c2, -bb * c3, -bb * c1,
+                -b3 * c1, -b3 * c3, -b2 * c2, -b2 * c0,
+                -c1, -c3, bb * c0, bb * c2,
+                b3 * c2, b3 * c0, b2 * c3, b2 * c1)
+        for o, v in zip(out, vals):
+            o[iS] = v
+    out = [o.reshape(shape) for o in out]
+    Ds, Fs, Da, Fa = out[0:4], out[4:8], out[8:12], out[12:16]
+    return tuple(Ds), tuple(EI * f for f in Fs), tuple(Da), tuple(EI * f for f in Fa)
 
 
 def piece_stiffness(EI, beta, h):
@@ -102,36 +120,50 @@ def piece_stiffness(EI, beta, h):
 
 def _basis(beta, h, x, order):
     """The four basis functions (sym a, sym b, anti a, anti b) or their x-derivative
-    of ``order`` at local x, both regimes merged."""
-    lam = beta * h
+    of ``order`` at local x; each regime evaluated only where it applies."""
+    shape, (bb, hh, xx) = _regimes(beta, h, x)
+    lam = bb * hh
     small = np.abs(lam) < SMALL
-    bo = beta ** order
-    # large: exp(-i beta x), exp(-i beta (h-x)), exp(-beta x), exp(-beta (h-x))
-    xl = np.where(small, 0.0, x)
-    bl = np.where(small, 0.0, beta)
-    e1 = np.exp(-1j * bl * xl)
-    e2 = np.exp(-1j * bl * (h - xl))
-    e3 = np.exp(-bl * xl)
-    e4 = np.exp(-bl * (h - xl))
-    f1, f2, f3, f4 = (-1j) ** order, (1j) ** order, (-1.0) ** order, 1.0
-    L = (f1 * e1 + f2 * e2, f3 * e3 + f4 * e4, f1 * e1 - f2 * e2, f3 * e3 - f4 * e4)
-    # small: C_m(beta (x - h/2)); d/dx C_m = beta C_(m-1), C_(-1) = C3
-    C = _krylov(np.where(small, beta * (x - 0.5 * h), 0.0))
-    S = (C[(0 - order) % 4], C[(2 - order) % 4], C[(1 - order) % 4], C[(3 - order) % 4])
-    return tuple(bo * np.where(small, s, l) for s, l in zip(S, L))
+    out = [np.empty(lam.size, dtype=complex) for _ in range(4)]
+    iL = np.flatnonzero(~small)
+    if iL.size:
+        # exp(-i beta x), exp(-i beta (h-x)), exp(-beta x), exp(-beta (h-x)), all <= 1
+        b, x_, h_ = bb[iL], xx[iL], hh[iL]
+        e1 = np.exp(-1j * b * x_)
+        e2 = np.exp(-1j * b * (h_ - x_))
+        e3 = np.exp(-b * x_)
+        e4 = np.exp(-b * (h_ - x_))
+        f1, f2, f3 = (-1j) ** order, (1j) ** order, (-1.0) ** order
+        bo = b ** order
+        for o, v in zip(out, (f1 * e1 + f2 * e2, f3 * e3 + e4, f1 * e1 - f2 * e2, f3 * e3 - e4)):
+            o[iL] = bo * v
+    iS = np.flatnonzero(small)
+    if iS.size:
+        # C_m(beta (x - h/2)); d/dx C_m = beta C_(m-1), C_(-1) = C3
+        b = bb[iS]
+        C = _krylov(b * (xx[iS] - 0.5 * hh[iS]))
+        bo = b ** order
+        for o, m in zip(out, (0, 2, 1, 3)):
+            o[iS] = bo * C[(m - order) % 4]
+    return tuple(o.reshape(shape) for o in out)
 
 
-def interior(EI, beta, h, x, u, order):
-    """w^(order)(x) inside a piece with nodal values u = (w1, th1, w2, th2) (each an array)."""
+def coefficients(EI, beta, h, u):
+    """Basis coefficients (sym a, sym b, anti a, anti b) of a piece with nodal values
+    u = (w1, th1, w2, th2): from the symmetric and antisymmetric halves."""
     Ds, _Fs, Da, _Fa = _parts(EI, beta, h)
     w1, t1, w2, t2 = u
     Ws, Ts, Wa, Ta = (w1 + w2) / 2, (t1 - t2) / 2, (w1 - w2) / 2, (t1 + t2) / 2
     i0, i1, i2, i3 = _inv2(*Ds)
-    cs = (i0 * Ws + i1 * Ts, i2 * Ws + i3 * Ts)
-    i0, i1, i2, i3 = _inv2(*Da)
-    ca = (i0 * Wa + i1 * Ta, i2 * Wa + i3 * Ta)
+    j0, j1, j2, j3 = _inv2(*Da)
+    return (i0 * Ws + i1 * Ts, i2 * Ws + i3 * Ts, j0 * Wa + j1 * Ta, j2 * Wa + j3 * Ta)
+
+
+def interior(EI, beta, h, x, u, order):
+    """w^(order)(x) inside a piece with nodal values u = (w1, th1, w2, th2) (each an array)."""
+    c = coefficients(EI, beta, h, u)
     B = _basis(beta, h, x, order)
-    return cs[0] * B[0] + cs[1] * B[1] + ca[0] * B[2] + ca[1] * B[3]
+    return c[0] * B[0] + c[1] * B[1] + c[2] * B[2] + c[3] * B[3]
 
 
 def clamped_count(lam: np.ndarray) -> np.ndarray:

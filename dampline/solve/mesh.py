@@ -365,8 +365,13 @@ def interior_field(mesh: Mesh, S: np.ndarray, k: np.ndarray, U: np.ndarray,
     if mesh.dpn == 1:
         A, B = interior_weights(kp, h, xi, order)
         return A * U[:, p] + B * U[:, p + 1]
-    u = (U[:, 2 * p], U[:, 2 * p + 1], U[:, 2 * p + 2], U[:, 2 * p + 3])
-    return beam.interior(S[:, p], kp.astype(complex), h, xi, u, order)
+    # coefficients once per piece (they do not depend on x), then gathered to the points
+    used = np.unique(p)
+    u = (U[:, 2 * used], U[:, 2 * used + 1], U[:, 2 * used + 2], U[:, 2 * used + 3])
+    c = beam.coefficients(S[:, used], k[:, used].astype(complex), mesh.piece_h[used], u)
+    where = np.searchsorted(used, p)
+    B = beam._basis(kp.astype(complex), h, xi, order)
+    return sum(ci[:, where] * Bi for ci, Bi in zip(c, B))
 
 
 def static_field(mesh: Mesh, U: np.ndarray, p: np.ndarray, xi: np.ndarray,

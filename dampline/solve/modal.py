@@ -439,6 +439,46 @@ def _undamped(line: Line) -> Line:
     return line.replace(segments=segs, attachments=tuple(atts), ends=ends, damping=Damping())
 
 
+def _residual_shape(ms: ModeSet, line: Line, xd: float, drive: str) -> dict:
+    """The residual shape r(x) for a unit load at xd (damping-independent, so cached on
+    the ModeSet for every damping change): its evaluator and its strain energy per
+    segment and kinetic energy (distributed part)."""
+    from .exact import _solve_dense, _solve_second_order
+    cache = ms.__dict__.setdefault("_residual_cache", {})
+    key = (float(xd), drive)
+    if key in cache:
+        return cache[key]
+    wn = ms.omega
+    w0 = np.array([0.1 * wn[ms.n_rigid]])
+    target = _undamped(line)
+    mesh = build_mesh(target, extra=(xd,))
+    solve = _solve_second_order if mesh.dpn == 1 else _solve_dense
+    rhs = np.zeros((1, mesh.n_dof), dtype=complex)
+    rhs[0, mesh.dpn * mesh.node_at(xd) + (1 if drive == "moment" else 0)] = 1.0
+    U, S, k = solve(mesh, w0, rhs, None, (False, False))
+    share = _drive_vector(ms, xd, drive) / (wn ** 2 - w0[0] ** 2)
+
+    def r_at(x, o):
+        p, xi = mesh.locate(x)
+        return interior_field(mesh, S, k, U, p, xi, o)[0].real - ms.shape(x, derivative=o) @ share
+
+    # energies of the residual shape, segment by segment (Gauss-Legendre per piece)
+    dorder = 2 if mesh.dpn == 2 else 1
+    _, kk = piece_wavenumbers(ms.mesh, wn, damped=False)
+    nq = int(min(600, max(16, np.ceil(1.2 * np.max(kk * ms.mesh.piece_h, initial=0.0)) + 16)))
+    t, wq = np.polynomial.legendre.leggauss(nq)
+    xs = (mesh.piece_x0[:, None] + 0.5 * mesh.piece_h[:, None] * (t + 1.0)[None, :]).ravel()
+    ws = (0.5 * mesh.piece_h[:, None] * wq[None, :]).ravel()
+    segs = np.repeat(mesh.piece_seg, nq)
+    coef = np.array([static_coefficients(line.kind, sg) for sg in line.segments])
+    e = coef[segs, 0] * ws * r_at(xs, dorder) ** 2
+    strain = np.bincount(segs, weights=e, minlength=len(line.segments))
+    kinetic = float((coef[segs, 1] * ws * r_at(xs, 0) ** 2).sum())
+    out = {"r_at": r_at, "strain": strain, "kinetic": kinetic}
+    cache[key] = out
+    return out
+
+
 def residual_field(mm: ModalModel, xd: float, drive: str, xr: np.ndarray, order: int
                    ) -> tuple[np.ndarray, Callable[[np.ndarray], np.ndarray]]:
     """Residual of the modes left out, for a unit force (or moment, or analogue load) at
@@ -455,55 +495,28 @@ def residual_field(mm: ModalModel, xd: float, drive: str, xr: np.ndarray, order:
     (Measured on a stepped bar with one segment at eta 0.3: this keeps the coupled
     modal sum within 0.05 dB of exact, where an undamped residual leaves 0.23 dB and
     a residual carrying the coupled damping of the kept modes 0.22 dB.)"""
-    from .exact import _solve_dense, _solve_second_order
     ms, line = mm.modes, mm.line
     wn = ms.omega
     if ms.count <= ms.n_rigid:
         return np.zeros(len(xr)), lambda w: np.ones(np.shape(w))
-    w0 = np.array([0.1 * wn[ms.n_rigid]])
-    target = _undamped(line)
-    mesh = build_mesh(target, extra=(xd,))
-    solve = _solve_second_order if mesh.dpn == 1 else _solve_dense
-    rhs = np.zeros((1, mesh.n_dof), dtype=complex)
-    rhs[0, mesh.dpn * mesh.node_at(xd) + (1 if drive == "moment" else 0)] = 1.0
-    U, S, k = solve(mesh, w0, rhs, None, (False, False))
-    phi_d = _drive_vector(ms, xd, drive)
-    share = phi_d / (wn ** 2 - w0[0] ** 2)
-
-    def r_at(x, o):
-        p, xi = mesh.locate(x)
-        return interior_field(mesh, S, k, U, p, xi, o)[0].real - ms.shape(x, derivative=o) @ share
-
+    shape = _residual_shape(ms, line, xd, drive)
+    r_at = shape["r_at"]
     R = r_at(xr, order)
     d = line.damping
     if d.model == "modal":
         return R, lambda w: np.ones(np.shape(w))
-    # energies of the residual shape, segment by segment (Gauss-Legendre per piece)
-    dorder = 2 if mesh.dpn == 2 else 1
-    _, kk = piece_wavenumbers(ms.mesh, wn, damped=False)
-    nq = int(min(600, max(16, np.ceil(1.2 * np.max(kk * ms.mesh.piece_h, initial=0.0)) + 16)))
-    t, wq = np.polynomial.legendre.leggauss(nq)
-    xs, ws, segs = [], [], []
-    for p in range(len(mesh.piece_h)):
-        lo, h = mesh.piece_x0[p], mesh.piece_h[p]
-        xs.append(lo + 0.5 * h * (t + 1.0))
-        ws.append(0.5 * h * wq)
-        segs.append(np.full(nq, mesh.piece_seg[p]))
-    xs, ws, segs = np.concatenate(xs), np.concatenate(ws), np.concatenate(segs)
-    coef = np.array([static_coefficients(line.kind, sg) for sg in line.segments])
     etas = np.array([segment_eta(line, sg) if line.kind != "duct" else 0.0
                      for sg in line.segments])
-    e_strain = coef[segs, 0] * ws * r_at(xs, dorder) ** 2
-    kR = float(e_strain.sum())
-    hR = float((etas[segs] * e_strain).sum())
-    mR = float((coef[segs, 1] * ws * r_at(xs, 0) ** 2).sum())
+    kR = float(shape["strain"].sum())
+    hR = float((etas * shape["strain"]).sum())
+    mR = float(shape["kinetic"])
     cR = 0.0
     for att in line.attachments:
         r0 = r_at(np.array([att.at]), 0)[0]
         kR += (att.spring or 0.0) * r0 ** 2
         mR += (att.mass or 0.0) * r0 ** 2
         cR += (att.dashpot or 0.0) * r0 ** 2
-        if mesh.dpn == 2:
+        if ms.mesh.dpn == 2:
             r1 = r_at(np.array([att.at]), 1)[0]
             kR += (att.rot_spring or 0.0) * r1 ** 2
             mR += (att.rot_inertia or 0.0) * r1 ** 2
@@ -514,7 +527,7 @@ def residual_field(mm: ModalModel, xd: float, drive: str, xr: np.ndarray, order:
             kR += e.spring * r0 ** 2
             mR += e.mass * r0 ** 2
             cR += e.dashpot * r0 ** 2
-            if mesh.dpn == 2:
+            if ms.mesh.dpn == 2:
                 r1 = r_at(x, 1)[0]
                 kR += e.rot_spring * r1 ** 2
                 mR += e.rot_inertia * r1 ** 2

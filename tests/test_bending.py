@@ -892,11 +892,9 @@ def test_undamped_frf_at_segment_clamped_frequencies_and_off_piece_poles():
     _undamped_pinned_frf_check("undamped FRF near clamped-piece poles", f, rtol=1e-10)
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "library bug: the undamped bending FRF loses accuracy near the clamped-clamped "
-    "frequencies of its internal mesh pieces (error ~1e-17 / |f/f_pole - 1| relative, "
-    "of order 1 at the pole itself, at all response points), where the piece dynamic "
-    "stiffness has a pole; the physical response is regular there"))
+# regression: the undamped FRF used to lose accuracy near the clamped-clamped frequencies
+# of its golden-section mesh pieces (error ~1e-17 / |f/f_pole - 1|, of order 1 at the pole
+# itself); the mesh now moves its split when a pole falls near a requested frequency
 def test_undamped_frf_exactly_at_piece_poles():
     # as above, at the piece poles themselves and 1e-10, 1e-6 off them (golden-section
     # pieces of the 0.3 L and 0.7 L segments, solve/mesh.py); expected: the modal series
@@ -926,11 +924,8 @@ def test_natural_frequencies_near_a_piece_pole_coincidence():
           dl.natural_frequencies(line, 8), lam ** 2 * OMEGA_UNIT / (2 * math.pi), rtol=1e-12)
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "library bug: a natural frequency that coincides (to within ~1e-6 relative) with a "
-    "clamped-clamped pole of an internal mesh piece is found to only ~1e-9 relative "
-    "(3e-9 here, mode 3 of a uniform clamped-clamped beam split at 0.6960 L), and its "
-    "mode shape to ~4e-8, against 1e-15 for every other mode"))
+# regression: a natural frequency on a clamped-clamped pole of a golden-section piece was
+# found to only ~3e-9 (shape ~4e-8); the mode finder now re-splits such a mesh
 def test_natural_frequency_on_a_piece_pole_coincidence():
     line = _cc_coincidence_line(0, 2)
     lam = _lambda_roots(_g_cc, 8)

@@ -22,7 +22,8 @@ from ..results import FRF
 from .banded import tridiagonal_solve
 from . import beam
 from .mesh import (Mesh, assemble, assemble_tridiagonal, build_mesh, free_dofs, held_dofs,
-                   interior_field, interior_weights, piece_stiffness, piece_wavenumbers)
+                   interior_field, interior_weights, mesh_avoiding_poles, piece_stiffness,
+                   piece_wavenumbers)
 
 __all__ = ["frf", "Drive", "Quantity"]
 
@@ -193,7 +194,7 @@ def _exact(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, qua
     omega = 2.0 * math.pi * f
     # an imposed velocity replaces the driven end's own (translational) condition
     replaced = (side == 0, side == 1)
-    mesh = build_mesh(line)
+    mesh = mesh_avoiding_poles(line, omega)
     nf = omega.size
     particular = None
     prescribed = None

@@ -78,9 +78,13 @@ class Mesh:
         return p, xi
 
 
-def build_mesh(line: Line, extra: tuple[float, ...] = ()) -> Mesh:
+#: split fractions tried in turn when a piece pole falls too close to a frequency of interest
+SPLITS = (GOLDEN, math.sqrt(2.0) - 1.0, 0.5 * (3.0 - math.sqrt(3.0)), 1.0 / math.e, 0.5773502691896258)
+
+
+def build_mesh(line: Line, extra: tuple[float, ...] = (), split: float = GOLDEN) -> Mesh:
     """Nodes at segment ends, attachments and ``extra`` points, each interval split
-    at the golden fraction."""
+    at the fraction ``split`` (the golden fraction unless a pole must be moved)."""
     L = line.length
     tol = END_SNAP * L
     bounds = np.array(line.boundaries)
@@ -98,7 +102,7 @@ def build_mesh(line: Line, extra: tuple[float, ...] = ()) -> Mesh:
     for a, b in zip(user[:-1], user[1:]):
         mid = 0.5 * (a + b)
         s = int(np.clip(np.searchsorted(bounds, mid, side="right") - 1, 0, len(line.segments) - 1))
-        xs += [a + GOLDEN * (b - a), b]
+        xs += [a + split * (b - a), b]
         seg_of += [s, s]
     x = np.asarray(xs)
     x[-1] = L
@@ -395,3 +399,65 @@ def static_field(mesh: Mesh, U: np.ndarray, p: np.ndarray, xi: np.ndarray,
     else:
         N = (12 / h ** 3, 6 / h ** 2, -12 / h ** 3, 6 / h ** 2)
     return N[0] * w1 + N[1] * t1 + N[2] * w2 + N[3] * t2
+
+
+def _cc_bending_roots(n: int) -> np.ndarray:
+    """First n roots of cos(l) cosh(l) = 1 (l > 0): clamped-clamped beam (Blevins),
+    by Newton on cos(l) - sech(l) from the asymptote (2j + 1) pi / 2."""
+    lam = (2.0 * np.arange(1, n + 1) + 1.0) * math.pi / 2.0
+    for _ in range(6):
+        sech = 1.0 / np.cosh(np.minimum(lam, 700.0))
+        f = np.cos(lam) - sech
+        df = -np.sin(lam) + sech * np.tanh(np.minimum(lam, 700.0))
+        lam = lam - f / df
+    return lam
+
+
+def piece_poles(mesh: Mesh, omega_max: float) -> np.ndarray:
+    """Sorted angular frequencies (up to omega_max) at which an undamped piece with both
+    ends clamped resonates: where its exact dynamic stiffness has a pole."""
+    line = mesh.line
+    out = []
+    for p, h in enumerate(mesh.piece_h):
+        S, m = static_coefficients(line.kind, line.segments[mesh.piece_seg[p]])
+        if mesh.dpn == 1:
+            w1 = math.pi * math.sqrt(S / m) / h
+            n = int(omega_max / w1) + 1
+            out.append(w1 * np.arange(1, n + 1))
+        else:
+            scale = math.sqrt(S / m) / (h * h)
+            n = int(math.sqrt(omega_max / scale) / math.pi) + 2
+            out.append(_cc_bending_roots(n) ** 2 * scale)
+    poles = np.sort(np.concatenate(out)) if out else np.zeros(0)
+    return poles[poles <= omega_max * 1.01]
+
+
+def pole_distance(mesh: Mesh, omega: np.ndarray) -> float:
+    """Smallest relative distance between the given frequencies and the piece poles."""
+    omega = np.asarray(omega, dtype=float)
+    if omega.size == 0:
+        return math.inf
+    poles = piece_poles(mesh, float(omega.max()))
+    if poles.size == 0:
+        return math.inf
+    i = np.clip(np.searchsorted(poles, omega), 1, poles.size - 1) if poles.size > 1 else \
+        np.zeros(omega.size, dtype=int)
+    d = np.minimum(np.abs(omega - poles[i]), np.abs(omega - poles[np.maximum(i - 1, 0)]))
+    return float(np.min(d / np.maximum(omega, 1e-300)))
+
+
+def mesh_avoiding_poles(line: Line, omega: np.ndarray, extra: tuple[float, ...] = (),
+                        margin: float = 1e-4) -> Mesh:
+    """The golden-split mesh, unless one of its piece poles lies within ``margin``
+    (relative) of a frequency of interest; then the split fraction that keeps them
+    farthest apart. (Near such a pole an undamped piece's stiffness is huge and the
+    response loses digits in proportion; the physical response is regular there.)"""
+    best, best_d = None, -1.0
+    for split in SPLITS:
+        mesh = build_mesh(line, extra, split)
+        d = pole_distance(mesh, omega)
+        if d >= margin:
+            return mesh
+        if d > best_d:
+            best, best_d = mesh, d
+    return best

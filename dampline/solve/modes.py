@@ -23,7 +23,8 @@ import numpy as np
 from ..errors import ModelError
 from ..families import static_coefficients
 from ..model.line import EndTable, Line
-from .mesh import (Mesh, assemble, build_mesh, free_dofs, held_dofs, interior_field,
+from .mesh import (GOLDEN, SPLITS, Mesh, assemble, build_mesh, free_dofs, held_dofs,
+                   interior_field, pole_distance,
                    piece_wavenumbers, static_field, static_stiffness)
 
 __all__ = ["natural_frequencies", "modes", "ModeSet"]
@@ -62,8 +63,8 @@ def _negcount(A: np.ndarray, bw: int) -> np.ndarray:
 class _Counter:
     """J(w) of a line: Wittrick-Williams count of natural frequencies below w."""
 
-    def __init__(self, line: Line):
-        self.mesh = build_mesh(line)
+    def __init__(self, line: Line, split: float = GOLDEN):
+        self.mesh = build_mesh(line, split=split)
         self.free = free_dofs(self.mesh, held_dofs(self.mesh))
         # absorber DOFs couple to their node only: bandwidth from the assembled pattern
         order = self._band_order()
@@ -128,21 +129,26 @@ def _rigid_motions(mesh: Mesh) -> np.ndarray:
     """
     line = mesh.line
     L = line.length
+    # a spring far softer than the line itself (1e-10 of its own end-to-end stiffness)
+    # grounds nothing that matters: its mode stays a rigid-body mode at 0.0 Hz
+    S_min = min(static_coefficients(line.kind, sg)[0] for sg in line.segments)
+    k_tr = 1e-10 * S_min / (L ** 3 if mesh.dpn == 2 else L)
+    k_rot = 1e-10 * S_min / L
     rows = []
     for dof in held_dofs(mesh):
         node, j = divmod(dof, mesh.dpn)
         rows.append([1.0, mesh.x[node] / L] if j == 0 else [0.0, 1.0])
     for node, _m, s, _c, _ri, rs in mesh.lumped:
-        if s:
+        if s > k_tr:
             rows.append([1.0, mesh.x[node] / L])
-        if rs:
+        if rs > k_rot:
             rows.append([0.0, 1.0])
     for side, e in enumerate(line.ends):
         x = 0.0 if side == 0 else 1.0
         if isinstance(e, EndTable):
-            if e.spring:
+            if e.spring > k_tr:
                 rows.append([1.0, x])
-            if e.rot_spring:
+            if e.rot_spring > k_rot:
                 rows.append([0.0, 1.0])
         elif line.kind == "duct" and e in ("unflanged", "flanged"):
             rows.append([1.0, x])       # the end correction's analogue spring
@@ -473,14 +479,24 @@ def _mode_vectors(counter: _Counter, omega: np.ndarray, n_rigid: int) -> np.ndar
 
 
 def _solve_frequencies(line: Line, count: int):
-    counter = _Counter(line)
-    n_rigid = min(_rigid_count(counter.mesh, counter.free), count)
-    omega = np.zeros(count)
-    n_el = count - n_rigid
-    if n_el:
-        targets = np.arange(n_rigid + 1, count + 1)
-        omega[n_rigid:] = _find_roots(counter, targets, _omega_scale(line, count + 1))
-    return counter, omega, n_rigid
+    """Roots on the golden-split mesh; should one of them fall within 1e-6 of a piece
+    pole (where the refinement and the null vector lose digits), again on a mesh split
+    at another fraction, keeping the set whose roots lie farthest from any pole."""
+    best = None
+    for split in SPLITS:
+        counter = _Counter(line, split)
+        n_rigid = min(_rigid_count(counter.mesh, counter.free), count)
+        omega = np.zeros(count)
+        n_el = count - n_rigid
+        if n_el:
+            targets = np.arange(n_rigid + 1, count + 1)
+            omega[n_rigid:] = _find_roots(counter, targets, _omega_scale(line, count + 1))
+        d = pole_distance(counter.mesh, omega[n_rigid:])
+        if best is None or d > best[0]:
+            best = (d, counter, omega, n_rigid)
+        if d >= 1e-6:
+            break
+    return best[1], best[2], best[3]
 
 
 def natural_frequencies(line: Line, count: int = 8) -> np.ndarray:

@@ -473,8 +473,10 @@ def _residual_shape(ms: ModeSet, line: Line, xd: float, drive: str) -> dict:
     coef = np.array([static_coefficients(line.kind, sg) for sg in line.segments])
     e = coef[segs, 0] * ws * r_at(xs, dorder) ** 2
     strain = np.bincount(segs, weights=e, minlength=len(line.segments))
-    kinetic = float((coef[segs, 1] * ws * r_at(xs, 0) ** 2).sum())
-    out = {"r_at": r_at, "strain": strain, "kinetic": kinetic}
+    kin = coef[segs, 1] * ws * r_at(xs, 0) ** 2
+    kinetic_seg = np.bincount(segs, weights=kin, minlength=len(line.segments))
+    out = {"r_at": r_at, "strain": strain, "kinetic": float(kin.sum()),
+           "kinetic_seg": kinetic_seg}
     cache[key] = out
     return out
 
@@ -511,6 +513,7 @@ def residual_field(mm: ModalModel, xd: float, drive: str, xr: np.ndarray, order:
     hR = float((etas * shape["strain"]).sum())
     mR = float(shape["kinetic"])
     cR = 0.0
+    terms: list = []
     for att in line.attachments:
         r0 = r_at(np.array([att.at]), 0)[0]
         kR += (att.spring or 0.0) * r0 ** 2
@@ -534,6 +537,12 @@ def residual_field(mm: ModalModel, xd: float, drive: str, xr: np.ndarray, order:
         elif line.kind == "duct" and e == "anechoic":
             seg = line.segments[0 if side == 0 else -1]
             cR += seg.area / (seg.rho * seg.c) * r0 ** 2
+        elif line.kind == "duct" and e in ("unflanged", "flanged"):
+            terms.append((_radiation_term(line, side), r0 ** 2))
+    if line.kind == "duct" and d.wall_losses:
+        for s_, _seg in enumerate(line.segments):
+            gK, gM = _wall_terms(line, s_)
+            terms += [(gK, shape["strain"][s_]), (gM, shape["kinetic_seg"][s_])]
     alpha = (d.alpha or 0.0) if d.model == "rayleigh" else 0.0
     beta = (d.beta or 0.0) if d.model == "rayleigh" else 0.0
     if kR <= 0.0:
@@ -541,7 +550,10 @@ def residual_field(mm: ModalModel, xd: float, drive: str, xr: np.ndarray, order:
 
     def scale(w):
         w = np.asarray(w, dtype=float)
-        return kR / (kR + 1j * hR + 1j * w * (cR + alpha * mR + beta * kR))
+        den = kR + 1j * hR + 1j * w * (cR + alpha * mR + beta * kR)
+        for g, G in terms:
+            den = den + g(np.maximum(w, 1e-300)) * G     # radiation, wall losses
+        return kR / den
     return R, scale
 
 

@@ -188,6 +188,7 @@ class Mechanism:
     C1: np.ndarray | None = None      # viscous part
     M1: np.ndarray | None = None      # complex compliance part (duct loss factor)
     terms: tuple = ()
+    rank1: tuple = ()                 # ((c, v),): C1 = c v v^T (a dashpot's)
 
     def diagonal_loss_factor(self, wn: np.ndarray) -> np.ndarray:
         """Each mode's loss factor from this mechanism alone, to first order:
@@ -239,23 +240,26 @@ def modal_model(line: Line, ms: ModeSet) -> ModalModel:
     for att in line.attachments:
         if att.dashpot:
             v = _points(ms, att.at)
-            mech.append(Mechanism(f"dashpot at {att.at:g} m", C1=att.dashpot * np.outer(v, v)))
+            mech.append(Mechanism(f"dashpot at {att.at:g} m", C1=att.dashpot * np.outer(v, v),
+                                  rank1=((att.dashpot, v),)))
     for j, (node, ab) in enumerate(ms.mesh.absorbers):
         if ab.damping:
             v = ms.absorber_amplitudes[:, j] - ms.nodal[:, ms.mesh.dpn * node]
             mech.append(Mechanism(f"absorber at {ms.mesh.x[node]:g} m",
-                                  C1=ab.damping * np.outer(v, v)))
+                                  C1=ab.damping * np.outer(v, v), rank1=((ab.damping, v),)))
     for side, e in enumerate(line.ends):
         x = 0.0 if side == 0 else line.length
         where = ("left", "right")[side]
         if isinstance(e, EndTable) and e.dashpot:
             v = _points(ms, x)
-            mech.append(Mechanism(f"{where} end dashpot", C1=e.dashpot * np.outer(v, v)))
+            mech.append(Mechanism(f"{where} end dashpot", C1=e.dashpot * np.outer(v, v),
+                                  rank1=((e.dashpot, v),)))
         if line.kind == "duct" and e == "anechoic":
             seg = line.segments[0 if side == 0 else -1]
             v = _points(ms, x)
-            mech.append(Mechanism(f"{where} end anechoic",
-                                  C1=seg.area / (seg.rho * seg.c) * np.outer(v, v)))
+            c_an = seg.area / (seg.rho * seg.c)
+            mech.append(Mechanism(f"{where} end anechoic", C1=c_an * np.outer(v, v),
+                                  rank1=((c_an, v),)))
         if line.kind == "duct" and e in ("unflanged", "flanged"):
             v = _points(ms, x)
             mech.append(Mechanism(f"{where} end radiation",
@@ -362,6 +366,56 @@ def _state_space(mm: ModalModel):
 _BLOCK = 512
 
 
+def _low_rank(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, phi_r: np.ndarray):
+    """Coupled solution when the viscous damping is diagonal plus a few dashpots
+    (C1 = C_diag + P diag(c) P^T, rank r) and the rest is either all diagonal or free of
+    viscous diagonal terms: A(w) = K0 + i w C_diag - w^2 M1 is diagonal, or is
+    diagonalised once (A = M1 V (L - w^2) V^-1 when C_diag = 0), and the dashpots enter
+    by the Sherman-Morrison-Woodbury identity with an r x r solve per frequency. The
+    response is then a single (n_freq x N) @ (N x n_resp) product, as decoupled."""
+    pairs = [cv for m in mm.mechanisms for cv in m.rank1 if cv[0] > 0]
+    N = mm.K0.shape[0]
+    C_low = np.zeros((N, N))
+    for c, v in pairs:
+        C_low += c * np.outer(v, v)
+    C_diag = mm.C1 - C_low
+    if not _is_diagonal(C_diag):
+        return None
+    diag_A = _is_diagonal(mm.K0) and _is_diagonal(mm.M1)
+    if diag_A:
+        lam_w = 1.0 / (np.diag(mm.K0)[None, :] + 1j * w[:, None] * np.diag(C_diag)[None, :]
+                       - (w * w)[:, None] * np.diag(mm.M1)[None, :])
+        left = phi_r
+        b = phi_d.astype(complex)
+        Vt_P = None
+    elif np.abs(np.diag(C_diag)).max(initial=0.0) == 0.0:
+        Minv = np.linalg.inv(mm.M1)
+        lam, V = scipy.linalg.eig(Minv @ mm.K0)
+        if np.linalg.cond(V) > 1e10:
+            return None
+        Vi = np.linalg.solve(V, Minv)
+        lam_w = 1.0 / (lam[None, :] - (w * w)[:, None])
+        left = phi_r @ V
+        b = Vi @ phi_d
+        Vt_P = V
+    else:
+        return None
+    if not pairs:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return lam_w * b[None, :], left.T
+    P = np.array([v for _c, v in pairs]).T                    # (N, r)
+    c = np.array([c for c, _v in pairs])
+    Q = P.astype(complex) if Vt_P is None else Vi @ P          # V^-1 M1^-1 P
+    PtV = P.T.astype(complex) if Vt_P is None else P.T @ V     # P^T V
+    G = np.einsum("rn,fn,ns->frs", PtV, lam_w, Q)
+    y = (lam_w * b[None, :]) @ PtV.T                            # P^T A^-1 phi_d
+    r = c.size
+    G[:, np.arange(r), np.arange(r)] += 1.0 / (1j * w[:, None] * c[None, :])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = np.linalg.solve(G, y[..., None])[..., 0]
+        return lam_w * (b[None, :] - z @ Q.T), left.T
+
+
 def modal_coefficients(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, phi_r: np.ndarray,
                        coupling: str):
     """(A, Bt) with the response A @ Bt, A (n_freq, m) and Bt (m, n_resp): m = N for
@@ -373,6 +427,9 @@ def modal_coefficients(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, phi_r: 
             return (1.0 / d) * phi_d[None, :], phi_r.T
     if mm.terms:
         return None
+    low = _low_rank(mm, w, phi_d, phi_r)
+    if low is not None:
+        return low
     ss = _state_space(mm)
     if ss is None:
         return None

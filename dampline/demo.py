@@ -1,7 +1,7 @@
 """Demo: a two-step titanium ultrasonic horn, end to end.
 
 Run ``python -m dampline.demo [--out DIR]``. It prints the natural frequencies
-and the resonance peaks of the driven horn, and writes two SVG plots (FRF in
+and the resonance peaks of the driven horn, and writes an HTML report and two SVG plots (FRF in
 dB, first mode shapes over the horn outline) and the model TOML to ``DIR``
 (default ``./dampline-demo``). The scenario is our own; the plots are plain
 SVG text, so the demo needs nothing beyond the engine (numpy).
@@ -266,6 +266,19 @@ def main(argv: Sequence[str] | None = None) -> int:
     written[1].write_text(modes_svg(line, m, elastic, f"{line.title}: first elastic modes"),
                           encoding="utf-8")
     dl.save(line, written[2])
+    # one self-contained page with both plots and the caution, for a report or a browser
+    report = out / "horn_report.html"
+    caution = ("A linear model of an idealised line: verify resonances and gain by test, "
+               "check the fatigue of every resonating part at the working amplitude, and "
+               "defer to the applicable codes and licensed engineering practice.")
+    report.write_text(
+        "<!DOCTYPE html>\n<html><head><meta charset=\"utf-8\"><title>"
+        f"{line.title}</title></head>\n<body style=\"font-family: sans-serif\">\n"
+        f"<h1>{line.title}</h1>\n" + written[0].read_text(encoding="utf-8")
+        + written[1].read_text(encoding="utf-8")
+        + f"<p>Natural frequencies (Hz): {', '.join(f'{v:.1f}' for v in fn)}</p>\n"
+        + f"<p><strong>Caution.</strong> {caution}</p>\n</body></html>\n", encoding="utf-8")
+    written.append(report)
     print("\nWritten:")
     for path in written:
         print(f"  {path}")

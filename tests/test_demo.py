@@ -20,7 +20,7 @@ from dampline import demo
 
 REPO = Path(__file__).resolve().parents[1]
 SVG = "{http://www.w3.org/2000/svg}"
-FILES = ("horn_frf.svg", "horn_modes.svg", "horn.toml")
+FILES = ("horn_frf.svg", "horn_modes.svg", "horn.toml", "horn_report.html")
 
 
 @pytest.fixture(scope="module")
@@ -109,3 +109,10 @@ def test_runs_as_a_module(tmp_path):
     assert run.returncode == 0, run.stderr
     assert "Natural frequencies" in run.stdout
     assert sorted(os.listdir(tmp_path)) == sorted(FILES)
+
+
+def test_report_page_embeds_both_plots_and_the_caution(tmp_path):
+    demo.main(["--out", str(tmp_path)])
+    page = (tmp_path / "horn_report.html").read_text(encoding="utf-8")
+    assert page.count("<svg") == 2
+    assert "verify resonances" in page and "licensed engineering practice" in page

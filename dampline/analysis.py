@@ -16,7 +16,7 @@ import scipy.linalg
 
 from .errors import ModelError
 from .model.line import Line
-from .solve.exact import check_position, check_request, frf
+from .solve.exact import check_position, check_request
 from .solve.modal import ModalModel, modal_model, modal_response, resolve_modes
 from .solve.modes import ModeSet
 

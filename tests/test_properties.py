@@ -19,7 +19,6 @@ springs, dashpots, damped absorbers) and random loss factors. Checked:
 from __future__ import annotations
 
 import math
-import warnings
 
 import numpy as np
 from hypothesis import HealthCheck, assume, given, settings

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 import warnings
-from typing import Literal, Sequence
+from typing import Literal
 
 import numpy as np
 
@@ -21,7 +21,7 @@ from ..model.line import END_SNAP, Line
 from ..results import FRF
 from .banded import tridiagonal_solve
 from . import beam
-from .mesh import (Mesh, assemble, assemble_tridiagonal, build_mesh, free_dofs, held_dofs,
+from .mesh import (Mesh, assemble, assemble_tridiagonal, free_dofs, held_dofs,
                    interior_field, interior_weights, mesh_avoiding_poles, piece_stiffness,
                    piece_wavenumbers)
 

@@ -42,7 +42,7 @@ import scipy.linalg
 
 from ..errors import ModelError
 from ..families import radiation_end_correction, segment_coefficients, segment_eta, \
-    static_coefficients, wall_loss_factors
+    static_coefficients
 from ..model.line import AIR, EndTable, Line
 from .mesh import build_mesh, end_stiffness, interior_field, piece_wavenumbers
 from .modes import ModeSet, _field, modes as compute_modes
@@ -555,7 +555,6 @@ def residual_field(mm: ModalModel, xd: float, drive: str, xr: np.ndarray, order:
     modal sum within 0.05 dB of exact, where an undamped residual leaves 0.23 dB and
     a residual carrying the coupled damping of the kept modes 0.22 dB.)"""
     ms, line = mm.modes, mm.line
-    wn = ms.omega
     if ms.count <= ms.n_rigid:
         return np.zeros(len(xr)), lambda w: np.ones(np.shape(w))
     shape = _residual_shape(ms, line, xd, drive)

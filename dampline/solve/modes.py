@@ -25,7 +25,7 @@ from ..families import static_coefficients
 from ..model.line import EndTable, Line
 from .mesh import (GOLDEN, SPLITS, Mesh, assemble, build_mesh, free_dofs, held_dofs,
                    interior_field, pole_distance,
-                   piece_wavenumbers, static_field, static_stiffness)
+                   piece_wavenumbers, static_field)
 
 __all__ = ["natural_frequencies", "modes", "ModeSet"]
 

@@ -24,5 +24,14 @@ __all__ = [
     "ModelError", "Line", "Segment", "EndTable", "Attachment", "Absorber", "Damping",
     "load", "save", "dumps", "frf", "natural_frequencies", "modes", "ModeSet", "FRF",
     "Peaks", "Section", "sections", "modal_table", "ModalTable", "coupling", "Coupling",
-    "studies", "__version__",
+    "studies", "__version__", "Dashboard",
 ]
+
+
+def __getattr__(name):
+    # the dashboard pulls in ipywidgets and bqplot: load it only when asked for
+    if name == "Dashboard":
+        from .dashboard import Dashboard
+        return Dashboard
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+

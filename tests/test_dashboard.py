@@ -1,0 +1,371 @@
+"""Widget-level tests of the dashboard: set control values from Python, read the
+marks' data, compare with direct calls of the public API (dl.frf, dl.modes).
+
+No browser: the marks' traits are what crosses to the front end. Reference for
+every expected value is the engine itself (the dashboard holds no physics), so
+the tolerances only cover float round-off (rtol 1e-9 on levels in dB).
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+pytest.importorskip("ipywidgets")
+bq = pytest.importorskip("bqplot")
+
+import dampline as dl  # noqa: E402
+
+N_FREQ = 300
+N_MODES = 12
+
+SPECS = {
+    "axial": {
+        "title": "stepped bar", "kind": "axial",
+        "segments": [{"length": 0.5, "E": 2.1e11, "rho": 7850.0, "area": 2e-4},
+                     {"length": 0.3, "E": 7.0e10, "rho": 2700.0, "area": 1e-4, "eta": 0.02}],
+        "ends": {"left": "free", "right": "free"},
+        "attachments": [{"at": 0.8, "mass": 0.05}],
+        "damping": {"model": "loss_factor", "eta": 0.002},
+    },
+    "torsion": {
+        "kind": "torsion",
+        "segments": [{"length": 0.5, "G": 8e10, "rho": 7850.0, "J": 1e-8},
+                     {"length": 0.4, "G": 8e10, "rho": 7850.0, "J": 4e-9}],
+        "ends": {"left": "fixed", "right": "free"},
+        "attachments": [{"at": 0.9, "mass": 1e-4, "dashpot": 0.05}],
+        "damping": {"model": "loss_factor", "eta": 0.002},
+    },
+    "string": {
+        "kind": "string",
+        "segments": [{"length": 0.6, "tension": 100.0, "mass_per_length": 0.01},
+                     {"length": 0.4, "tension": 100.0, "mass_per_length": 0.02}],
+        "damping": {"model": "modal", "zeta": 0.01},
+    },
+    "duct": {
+        "kind": "duct",
+        "segments": [{"length": 0.5, "area": 2e-3}, {"length": 0.3, "area": 5e-4}],
+        "ends": {"left": "closed", "right": "open"},
+        "damping": {"model": "loss_factor", "eta": 0.01},
+    },
+    "bending": {
+        "kind": "bending",
+        "segments": [{"length": 0.4, "E": 2.1e11, "rho": 7850.0, "area": 1e-4, "I": 8.3e-10},
+                     {"length": 0.3, "E": 2.1e11, "rho": 7850.0, "area": 6e-5, "I": 3e-10}],
+        "ends": {"left": "clamped", "right": "free"},
+        "attachments": [{"at": 0.7, "mass": 0.05}],
+        "damping": {"model": "rayleigh", "alpha": 2.0, "beta": 1e-6},
+    },
+}
+KINDS = list(SPECS)
+# the damping control each scenario moves, and a new value for it
+DAMPING_MOVE = {"axial": ("eta", 0.01), "torsion": ("eta", 0.02), "string": ("zeta", 0.03),
+                "duct": ("eta", 0.05), "bending": ("beta", 3e-6)}
+
+
+def db(values) -> np.ndarray:
+    mag = np.abs(np.asarray(values))
+    with np.errstate(divide="ignore"):
+        out = 20 * np.log10(mag)
+    out[~np.isfinite(out)] = np.nan
+    return out
+
+
+def make(kind: str, **kw) -> "dl.Dashboard":
+    return dl.Dashboard(dl.Line.from_dict(SPECS[kind]), n_freq=N_FREQ, modes=N_MODES, **kw)
+
+
+def reference(d, method: str, line=None, **kw):
+    line = d.line if line is None else line
+    opts = {}
+    if method == "modal":
+        opts = {"modes": dl.modes(line, N_MODES), "coupling": d.controls["coupling"].value}
+    return dl.frf(line, d.freqs, drive_at=d.controls["drive_at"].value,
+                  response_at=[d.controls["response_at"].value], drive=d.drive, method=method,
+                  **opts, **kw)
+
+
+def assert_curves_match(d) -> None:
+    m = d.marks
+    modal = reference(d, "modal")
+    np.testing.assert_allclose(m["modal"].y, db(modal)[:, 0], rtol=1e-9, atol=1e-9)
+    if d.line.damping.model != "modal":
+        exact = reference(d, "exact")
+        np.testing.assert_allclose(m["exact"].y, db(exact)[:, 0], rtol=1e-9, atol=1e-9)
+        np.testing.assert_allclose(m["phase_exact"].y, np.degrees(np.angle(np.asarray(exact)[:, 0])),
+                                   rtol=1e-9, atol=1e-9)
+    else:
+        assert not m["exact"].visible
+
+
+def field_reference(d):
+    x = np.linspace(0.0, d.line.length, d.n_points)
+    f = d.controls["frequency"].value
+    kw = {"method": "exact"}
+    if d.line.damping.model == "modal":
+        kw = {"method": "modal", "modes": dl.modes(d.line, N_MODES),
+              "coupling": d.controls["coupling"].value}
+    H = dl.frf(d.line, [f], drive_at=d.controls["drive_at"].value, response_at=x, drive=d.drive,
+               quantity=d.controls["quantity"].value, **kw)
+    return x, np.asarray(H)[0]
+
+
+@pytest.fixture(params=KINDS)
+def board(request):
+    return make(request.param)
+
+
+def test_construct_and_initial_curves(board):
+    d = board
+    assert set(d.figures) == {"frf", "phase", "field", "coupling"}
+    assert all(isinstance(f, bq.Figure) for f in d.figures.values())
+    assert d.status.value == ""
+    assert_curves_match(d)
+    # the dB axis names the reference with the FRF's unit
+    assert d._ax_db.label == f"|H| dB re 1 {d.frf_modal.unit}"
+    # phase shares the x-scale object with the FRF figure
+    assert d.marks["phase_exact"].scales["x"] is d.marks["exact"].scales["x"]
+    # natural-frequency markers at dl.modes' elastic frequencies inside the band
+    fn = dl.natural_frequencies(d.line, N_MODES)
+    inside = fn[(fn > 0) & (fn >= d.freqs[0]) & (fn <= d.freqs[-1])]
+    np.testing.assert_allclose(np.sort(d.marks["natural"].x), inside, rtol=1e-9)
+    assert all("zeta" in n for n in d.marks["natural"].names)
+    # default drive: right end unless held there
+    held = ("fixed", "clamped", "pinned", "open")
+    left, right = (isinstance(e, str) and e in held for e in d.line.ends)
+    expect = d.line.length if not right else (0.0 if not left else 0.5 * d.line.length)
+    assert d.controls["drive_at"].value == pytest.approx(expect)
+    assert d.controls["response_at"].value == pytest.approx(expect)
+
+
+def test_damping_control_reuses_modes(board):
+    d = board
+    name, value = DAMPING_MOVE[d.line.kind]
+    ms = d._modeset
+    before = np.array(d.marks["modal"].y)
+    d.controls[name].value = value
+    assert d.status.value == ""
+    assert getattr(d.line.damping, name) == pytest.approx(value)
+    assert d._modeset is ms                      # no mode recomputation on a damping change
+    assert not np.allclose(before, d.marks["modal"].y, equal_nan=True)
+    assert_curves_match(d)
+
+
+def test_frequency_moves_field(board):
+    d = board
+    x, u = field_reference(d)
+    np.testing.assert_allclose(d.marks["envelope"].y[0], np.abs(u), rtol=1e-9, atol=1e-300)
+    env0 = np.array(d.marks["envelope"].y[0])
+    f_new = float(d.freqs[int(0.77 * d.freqs.size)])
+    d.controls["frequency"].value = f_new
+    x, u = field_reference(d)
+    assert not np.allclose(env0, d.marks["envelope"].y[0])
+    np.testing.assert_allclose(d.marks["envelope"].y[0], np.abs(u), rtol=1e-9, atol=1e-300)
+    np.testing.assert_allclose(d.marks["envelope"].y[1], -np.abs(u), rtol=1e-9, atol=1e-300)
+    assert list(d.marks["cursor"].x) == pytest.approx([f_new, f_new])
+    # the instantaneous shape follows the Play widget's phase
+    d.controls["animate"].value = 9                # a quarter period: Re(u e^{i pi/2}) = -Im u
+    np.testing.assert_allclose(d.marks["shape"].y, -u.imag, rtol=1e-9, atol=1e-12 * np.abs(u).max())
+
+
+def test_response_point_moves_frf(board):
+    d = board
+    before = np.array(d.marks["modal"].y)
+    xr = 0.37 * d.line.length
+    d.controls["response_at"].value = xr
+    assert d.status.value == ""
+    assert not np.allclose(before, d.marks["modal"].y, equal_nan=True)
+    assert_curves_match(d)
+    assert d.marks["response"].x[0] == pytest.approx(xr)
+
+
+def test_segment_length_recomputes_modes(board):
+    d = board
+    ms = d._modeset
+    L0 = d.controls["segments.0.length"].value
+    d.controls["segments.0.length"].value = 1.2 * L0
+    assert d.status.value == ""
+    assert d.line.segments[0].length == pytest.approx(1.2 * L0)
+    assert d._modeset is not ms
+    np.testing.assert_allclose(d._modeset.frequencies, dl.natural_frequencies(d.line, N_MODES),
+                               rtol=1e-9)
+    assert_curves_match(d)
+    assert d.marks["segments"].x[-1][1] == pytest.approx(d.line.length)
+
+
+def test_bad_value_keeps_last_good_curves(board):
+    d = board
+    y_modal = np.array(d.marks["modal"].y)
+    y_env = np.array(d.marks["envelope"].y)
+    good = d.line
+    d.controls["segments.1.length"].value = -0.2
+    assert "length" in d.status.value and "Not updated" in d.status.value
+    assert d.line is good
+    np.testing.assert_array_equal(d.marks["modal"].y, y_modal)
+    np.testing.assert_array_equal(d.marks["envelope"].y, y_env)
+    L1 = good.segments[1].length
+    d.controls["segments.1.length"].value = L1          # a good value clears the message
+    assert d.status.value == ""
+    assert d.line == good
+
+
+def test_no_inf_reaches_the_figures(board):
+    d = board
+    d.controls["damping_model"].value = "none"          # undamped: resonances are the worst case
+    d.controls["frequency"].value = float(d._modeset.frequencies[d._modeset.frequencies > 0][0])
+    for fig in d.figures.values():
+        for mark in fig.marks:
+            for name in ("x", "y", "color"):
+                if not hasattr(mark, name):
+                    continue
+                a = np.asarray(getattr(mark, name), dtype=float)
+                assert not np.isinf(a).any(), (mark, name)
+                for sc in mark.scales.values():
+                    if isinstance(sc, bq.LogScale):
+                        assert not (a[np.isfinite(a)] <= 0).any()
+
+
+def test_marker_and_selector_drive_controls():
+    d = make("axial")
+    L = d.line.length
+    d.marks["response"].x = [0.25 * L]                   # what a drag in the browser does
+    assert d.controls["response_at"].value == pytest.approx(0.25 * L, abs=L / 1000)
+    assert_curves_match(d)
+    f = float(d.freqs[100])
+    d._selector.selected = np.array([f])                  # a click on the FRF
+    assert d.controls["frequency"].value == pytest.approx(f)
+    x, u = field_reference(d)
+    np.testing.assert_allclose(d.marks["envelope"].y[0], np.abs(u), rtol=1e-9)
+
+
+def test_coupling_toggle_and_tables():
+    d = make("axial")        # non-uniform loss factor: non-proportional damping
+    assert not d.coupling.proportional
+    full = np.array(d.marks["modal"].y)
+    d.controls["coupling"].value = "diagonal"
+    assert not np.allclose(full, d.marks["modal"].y, equal_nan=True)
+    assert_curves_match(d)
+    C = dl.coupling(d.line, dl.modes(d.line, N_MODES), drive_at=d.drive_at, response_at=d.response_at,
+                    points_per_peak=101)
+    np.testing.assert_allclose(d.marks["coupling"].color, C.matrix, rtol=1e-9, atol=1e-12)
+    np.testing.assert_allclose(d.marks["peak_difference"].y, np.nan_to_num(C.peak_difference_db),
+                               rtol=1e-9, atol=1e-12)
+    tab = dl.modal_table(d.line, N_MODES)
+    for head in ("damping ratio", "loss factor", "Q", "bandwidth (Hz)", "peak"):
+        assert head in d.table.value
+    assert f"{tab['frequency'][1]:.5g}" in d.table.value
+
+
+def test_modes_slider_truncates_without_recomputing():
+    d = make("torsion")
+    ms = d._modeset
+    d.controls["modes"].value = 5
+    assert d._modeset is ms
+    ref = dl.frf(d.line, d.freqs, drive_at=d.drive_at, response_at=[d.response_at],
+                 method="modal", modes=dl.modes(d.line, 5))
+    np.testing.assert_allclose(d.marks["modal"].y, db(ref)[:, 0], rtol=1e-9)
+
+
+def test_damping_model_switch_to_modal_hides_exact():
+    d = make("axial")
+    d.controls["damping_model"].value = "modal"
+    assert d.status.value == ""
+    assert d.line.damping.model == "modal"
+    assert d.controls["eta"].layout.display == "none"
+    assert d.controls["zeta"].layout.display == ""
+    assert_curves_match(d)
+    d.controls["damping_model"].value = "loss_factor"   # segment loss factor comes back
+    assert d.line.segments[1].eta == pytest.approx(0.02)
+    assert_curves_match(d)
+
+
+def test_attachment_controls():
+    d = make("torsion")
+    ms = d._modeset
+    d.controls["attachments.0.dashpot"].value = 0.5      # damping only: same modes
+    assert d._modeset is ms and d.line.attachments[0].dashpot == pytest.approx(0.5)
+    assert_curves_match(d)
+    d.controls["attachments.0.mass"].value = 3e-4        # inertia: new modes
+    assert d._modeset is not ms
+    assert_curves_match(d)
+
+
+def test_bending_second_moment_control():
+    d = make("bending")
+    ms = d._modeset
+    d.controls["segments.1.I"].value = 6e-10
+    assert d.status.value == "" and d._modeset is not ms
+    assert d.line.segments[1].I == pytest.approx(6e-10)
+    np.testing.assert_allclose(d._modeset.frequencies, dl.natural_frequencies(d.line, N_MODES),
+                               rtol=1e-9)
+    assert_curves_match(d)
+
+
+def test_field_quantities():
+    d = make("duct")
+    assert [v for _k, v in d.controls["quantity"].options] == ["pressure", "velocity",
+                                                                 "volume_velocity"]
+    d.controls["quantity"].value = "velocity"
+    x, u = field_reference(d)
+    np.testing.assert_allclose(d.marks["envelope"].y[0], np.abs(u), rtol=1e-9)
+    assert "m/s" in d._ax_field.label
+    b = make("bending")
+    assert "moment" in [v for _k, v in b.controls["quantity"].options]
+    assert "stress" not in [v for _k, v in b.controls["quantity"].options]   # no sections
+    spec = {"kind": "bending", "ends": {"left": "clamped", "right": "free"},
+            "segments": [{"length": 0.5, "E": 2.1e11, "rho": 7850.0,
+                          "section": {"shape": "circle", "diameter": 0.02}}],
+            "damping": {"model": "loss_factor", "eta": 0.01}}
+    s = dl.Dashboard(dl.Line.from_dict(spec), n_freq=N_FREQ, modes=N_MODES)
+    assert "segments.0.I" not in s.controls              # the section owns I
+    s.controls["quantity"].value = "stress"
+    assert s.status.value == "" and "Pa/N" in s._ax_field.label
+    x, u = field_reference(s)
+    np.testing.assert_allclose(s.marks["envelope"].y[0], np.abs(u), rtol=1e-9)
+
+
+def test_exports(tmp_path):
+    d = make("axial")
+    d.controls["eta"].value = 0.005
+    p = d.export_toml(tmp_path / "model.toml")
+    assert dl.load(p) == d.line
+    p = d.export_csv(tmp_path / "frf.csv")
+    lines = p.read_text().splitlines()
+    head = lines[1].split(",")
+    assert head[0] == "frequency [Hz]"
+    assert "exact magnitude [m/N]" in head and "modal level [dB re 1 m/N]" in head
+    data = np.loadtxt(p, delimiter=",", skiprows=2)
+    assert data.shape == (N_FREQ, len(head))
+    np.testing.assert_allclose(data[:, 0], d.freqs, rtol=1e-9)
+    ex = np.asarray(d.frf_exact)[:, 0]
+    np.testing.assert_allclose(data[:, 1] + 1j * data[:, 2], ex, rtol=1e-8, atol=1e-8 * np.abs(ex).max())
+    p = d.export_field_csv(tmp_path / "field.csv")
+    head = p.read_text().splitlines()[1].split(",")
+    assert head[0] == "x [m]" and head[3] == "magnitude [m/N]"
+    data = np.loadtxt(p, delimiter=",", skiprows=2)
+    x, u = field_reference(d)
+    np.testing.assert_allclose(data[:, 3], np.abs(u), rtol=1e-8)
+
+
+def test_from_path(tmp_path):
+    p = dl.save(dl.Line.from_dict(SPECS["string"]), tmp_path / "s.toml")
+    d = dl.Dashboard(p, n_freq=N_FREQ, modes=N_MODES)
+    assert d.line == dl.load(p)
+    assert_curves_match(d)
+
+
+def test_imports_are_lazy():
+    code = ("import sys, dampline\n"
+            "assert 'bqplot' not in sys.modules and 'ipywidgets' not in sys.modules\n"
+            "assert 'Dashboard' in dampline.__all__\n"
+            "line = dampline.Line.from_dict({'kind': 'string', 'segments': [{'length': 1.0, "
+            "'tension': 10.0, 'mass_per_length': 0.01}], 'damping': {'model': 'modal', 'zeta': 0.01}})\n"
+            "d = dampline.Dashboard(line, n_freq=50, modes=4)\n"
+            "assert 'bqplot' in sys.modules and 'ipywidgets' in sys.modules\n")
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert r.returncode == 0, r.stderr
+    with pytest.raises(AttributeError):
+        dl.NoSuchThing  # noqa: B018

@@ -18,6 +18,7 @@ pytest.importorskip("ipywidgets")
 bq = pytest.importorskip("bqplot")
 
 import dampline as dl  # noqa: E402
+from dampline.dashboard import app as dashboard_app  # noqa: E402
 
 N_FREQ = 300
 N_MODES = 12
@@ -249,7 +250,7 @@ def test_coupling_toggle_and_tables():
     assert not np.allclose(full, d.marks["modal"].y, equal_nan=True)
     assert_curves_match(d)
     C = dl.coupling(d.line, dl.modes(d.line, N_MODES), drive_at=d.drive_at, response_at=d.response_at,
-                    points_per_peak=101)
+                    points_per_peak=dashboard_app.PEAK_POINTS)
     np.testing.assert_allclose(d.marks["coupling"].color, C.matrix, rtol=1e-9, atol=1e-12)
     np.testing.assert_allclose(d.marks["peak_difference"].y, np.nan_to_num(C.peak_difference_db),
                                rtol=1e-9, atol=1e-12)

@@ -52,6 +52,10 @@ _MARGIN = 1 + 1 / 10         # field axis headroom
 _BLUE, _ORANGE, _GREY, _GREEN, _RED = "#1f5fa8", "#c8501e", "#9a9a9a", "#2e8b3a", "#b22222"
 
 
+#: samples across each peak for the coupled-vs-decoupled difference (+-4 bandwidths)
+PEAK_POINTS = 41
+
+
 def _db(values: np.ndarray) -> np.ndarray:
     """20 log10 |H| with zeros, inf and NaN all masked to NaN (never -inf on an axis)."""
     mag = np.abs(values)
@@ -459,7 +463,8 @@ class Dashboard(W.VBox):
         t_exact = time.perf_counter() - t
         t = time.perf_counter()
         table = dl.modal_table(line, ms, drive_at=xd, response_at=xr, drive=self.drive)
-        coup = dl.coupling(line, ms, drive_at=xd, response_at=xr, points_per_peak=101)
+        coup = dl.coupling(line, ms, drive_at=xd, response_at=xr,
+                          points_per_peak=PEAK_POINTS)
         t_tables = time.perf_counter() - t
         # everything computed: commit
         geometry_changed = key != self._modes_key
@@ -542,10 +547,15 @@ class Dashboard(W.VBox):
         modes_ = np.arange(1, n + 1)
         hm = self.marks["coupling"]
         # row, column and color are cross-validated: change them together
-        with hm.hold_sync(), hm.hold_trait_notifications():
-            hm.row = modes_
-            hm.column = modes_
-            hm.color = np.nan_to_num(cp.matrix)
+        color = np.nan_to_num(cp.matrix)
+        old = np.asarray(hm.color) if hm.color is not None else None
+        # the heat map draws one rectangle per cell: resend it only when it visibly changes
+        if old is None or old.shape != color.shape or np.abs(old - color).max() > 2e-3:
+            with hm.hold_sync(), hm.hold_trait_notifications():
+                if old is None or old.shape != color.shape:
+                    hm.row = modes_
+                    hm.column = modes_
+                hm.color = color
         bars = self.marks["peak_difference"]
         with bars.hold_sync():
             bars.x = modes_

@@ -286,8 +286,9 @@ def _solve_second_order(mesh: Mesh, omega, rhs, prescribed, replaced):
     return U, S, k
 
 
-#: frequencies per dense block: keeps the (block, n, n) arrays small and warm in memory
-_BLOCK = 256
+#: complex entries per dense block (block x n x n): small enough to stay warm in memory,
+#: large enough that the per-block Python work is negligible
+_BLOCK_ENTRIES = 2_000_000
 
 
 def _solve_dense(mesh: Mesh, omega, rhs, prescribed, replaced):
@@ -299,16 +300,17 @@ def _solve_dense(mesh: Mesh, omega, rhs, prescribed, replaced):
         held = held + [prescribed[0]]
     free = free_dofs(mesh, held)
     S_all, k_all = [], []
-    for a in range(0, nf, _BLOCK):
-        w = omega[a:a + _BLOCK]
+    block = max(64, _BLOCK_ENTRIES // (n * n))
+    for a in range(0, nf, block):
+        w = omega[a:a + block]
         K, _ = assemble(mesh, w, damped=True, replaced=replaced)
-        b = rhs[a:a + _BLOCK].copy()
+        b = rhs[a:a + block].copy()
         if prescribed is not None:
             dof, value = prescribed
-            U[a:a + _BLOCK, dof] = value[a:a + _BLOCK]
-            b -= K[:, :, dof] * value[a:a + _BLOCK, None]
+            U[a:a + block, dof] = value[a:a + block]
+            b -= K[:, :, dof] * value[a:a + block, None]
         Kf = K[:, free[:, None], free[None, :]]
-        U[a:a + _BLOCK, free] = _dense_solve(Kf, b[:, free])
+        U[a:a + block, free] = _dense_solve(Kf, b[:, free])
         S, k = piece_wavenumbers(mesh, w, True)
         S_all.append(S)
         k_all.append(k)

@@ -113,6 +113,40 @@ def _damping_ratios(mm: ModalModel):
     return zeta, fd, False
 
 
+def _decoupled_loss_factors(mm: ModalModel):
+    """Each mode's decoupled loss factor, from its own pole w^2 = D_nn / M1_nn at w_n
+    (eta = Im / Re of that complex w^2, exact for a complex modulus or bulk modulus),
+    and the mechanisms' first-order shares scaled to add up to it."""
+    wn = mm.modes.omega
+    rigid = wn == 0.0
+    safe = np.where(rigid, 1.0, wn)
+    lam = np.diag(mm.K0) + 1j * safe * np.diag(mm.C1)
+    for g, G in mm.terms:
+        lam = lam + g(safe) * np.diag(G)
+    lam = lam / np.diag(mm.M1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        eta_diag = np.where(rigid, np.nan, lam.imag / lam.real)
+    raw = {m.name: np.nan_to_num(m.diagonal_loss_factor(wn)) for m in mm.mechanisms}
+    total = sum(raw.values()) if raw else np.zeros(wn.size)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        shares = {k: np.where(rigid, np.nan, np.where(total != 0, v / total * eta_diag, 0.0))
+                  for k, v in raw.items()}
+    return eta_diag, shares
+
+
+def _mode_damping(mm: ModalModel, eta_diag: np.ndarray):
+    """(zeta, damped frequency Hz, all-hysteretic?) per mode: coupled where the complex
+    eigenvalues are available, else from the decoupled loss factor; rigid rows NaN."""
+    coupled = _damping_ratios(mm)
+    if coupled is not None:
+        zeta, fd, hysteretic = coupled
+    else:
+        zeta = eta_diag / 2.0
+        fd = mm.modes.frequencies * np.sqrt(np.clip(1.0 - zeta ** 2, 0.0, None))
+        hysteretic = True
+    return np.where(mm.modes.omega == 0.0, np.nan, zeta), fd, hysteretic
+
+
 def modal_table(line: Line, count: int | ModeSet = 10, *, drive_at: float | None = None,
                 response_at: float | None = None, drive: str = "force") -> ModalTable:
     """Per-mode table of the damped line.
@@ -132,29 +166,8 @@ def modal_table(line: Line, count: int | ModeSet = 10, *, drive_at: float | None
     wn = ms.omega
     f = ms.frequencies
     rigid = wn == 0.0
-    # decoupled loss factor of each mode: its own pole w^2 = D_nn / M1_nn at w_n,
-    # eta = Im / Re of that complex w^2 (exact for a complex modulus or bulk modulus);
-    # the mechanisms' first-order shares are scaled to add up to it
-    safe = np.where(rigid, 1.0, wn)
-    lam = np.diag(mm.K0) + 1j * safe * np.diag(mm.C1)
-    for g, G in mm.terms:
-        lam = lam + g(safe) * np.diag(G)
-    lam = lam / np.diag(mm.M1)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        eta_diag = np.where(rigid, np.nan, lam.imag / lam.real)
-    raw = {m.name: np.nan_to_num(m.diagonal_loss_factor(wn)) for m in mm.mechanisms}
-    total = sum(raw.values()) if raw else np.zeros(ms.count)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        shares = {k: np.where(rigid, np.nan, np.where(total != 0, v / total * eta_diag, 0.0))
-                  for k, v in raw.items()}
-    coupled = _damping_ratios(mm)
-    if coupled is not None:
-        zeta, fd, hysteretic = coupled
-    else:
-        zeta = eta_diag / 2.0
-        fd = f * np.sqrt(np.clip(1.0 - zeta ** 2, 0.0, None))
-        hysteretic = True
-    zeta = np.where(rigid, np.nan, zeta)
+    eta_diag, shares = _decoupled_loss_factors(mm)
+    zeta, fd, hysteretic = _mode_damping(mm, eta_diag)
     with np.errstate(divide="ignore", invalid="ignore"):
         Q = 1.0 / (2.0 * zeta)
     x = np.linspace(0.0, line.length, 801)
@@ -240,8 +253,8 @@ def coupling(line: Line, count: int | ModeSet = 10, *, drive_at: float | None = 
                                      None, drive_at)
     xr = check_position(line, "response_at", response_at)[:1]
     wn = ms.omega
-    tab = modal_table(line, ms)
-    zeta = tab["damping_ratio"]
+    # only the damping ratios are needed here, not the whole table
+    zeta = _mode_damping(mm, _decoupled_loss_factors(mm)[0])[0]
     diff = np.full(ms.count, np.nan)
     el = np.flatnonzero((wn > 0) & np.isfinite(zeta))
     if el.size:

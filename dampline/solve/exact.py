@@ -332,7 +332,7 @@ def _dense_solve(A: np.ndarray, b: np.ndarray) -> np.ndarray:
         return out
 
 
-def _field(mesh: Mesh, S, k, U, p, xi, order: int, particular) -> np.ndarray:
+def _field(mesh: Mesh, S, k, U, p, xi, particular, order: int) -> np.ndarray:
     """Interior field from the nodal solution, plus the clamped-piece particular solution
     of an interior point load in the pieces that hold one."""
     out = interior_field(mesh, S, k, U, p, xi, order)
@@ -370,11 +370,8 @@ def _response(mesh: Mesh, omega: np.ndarray, S: np.ndarray, k: np.ndarray, U: np
     w = omega[:, None]
     Sp = S[:, p]
 
-    def interior_field(mesh_, S_, k_, U_, p_, xi_, order):   # noqa: ARG001 - same signature
-        return _field(mesh, S, k, U, p, xi, order, particular)
-
     if quantity in ("receptance", "mobility", "accelerance", "pressure"):
-        u = interior_field(mesh, S, k, U, p, xi, 0)
+        u = _field(mesh, S, k, U, p, xi, particular, 0)
         if quantity == "mobility":
             return 1j * w * u
         if quantity == "accelerance":
@@ -382,15 +379,15 @@ def _response(mesh: Mesh, omega: np.ndarray, S: np.ndarray, k: np.ndarray, U: np
         return u
     if mesh.dpn == 2:
         if quantity == "rotation":
-            return interior_field(mesh, S, k, U, p, xi, 1)
+            return _field(mesh, S, k, U, p, xi, particular, 1)
         if quantity in ("moment", "stress"):
-            M = Sp * interior_field(mesh, S, k, U, p, xi, 2)      # M = EI w''
+            M = Sp * _field(mesh, S, k, U, p, xi, particular, 2)      # M = EI w''
             if quantity == "moment":
                 return M
             segs = [mesh.line.segments[s] for s in mesh.piece_seg[p]]
             return M * np.array([sg.fibre / sg.I for sg in segs])   # sigma = M c / I
-        return -Sp * interior_field(mesh, S, k, U, p, xi, 3)     # shear V = -EI w'''
-    N = Sp * interior_field(mesh, S, k, U, p, xi, 1)
+        return -Sp * _field(mesh, S, k, U, p, xi, particular, 3)     # shear V = -EI w'''
+    N = Sp * _field(mesh, S, k, U, p, xi, particular, 1)
     if quantity == "force":
         return N
     Q = 1j * N / w                          # volume velocity from N = -i w U

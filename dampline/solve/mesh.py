@@ -286,33 +286,6 @@ def free_dofs(mesh: Mesh, held: list[int]) -> np.ndarray:
     return np.array([i for i in range(mesh.n_dof) if i not in held_set], dtype=int)
 
 
-def static_stiffness(mesh: Mesh) -> np.ndarray:
-    """The w -> 0 limit of the real dynamic stiffness (rigid-body counting)."""
-    line = mesh.line
-    n, nn = mesh.n_dof, mesh.n_nodes
-    K = np.zeros((n, n))
-    for p in range(nn - 1):
-        s0, _ = static_coefficients(line.kind, line.segments[mesh.piece_seg[p]])
-        h = mesh.piece_h[p]
-        if mesh.dpn == 1:
-            K[p:p + 2, p:p + 2] += s0 / h * np.array([[1.0, -1.0], [-1.0, 1.0]])
-        else:   # Hermite beam element (the w -> 0 limit of the exact one)
-            K[2 * p:2 * p + 4, 2 * p:2 * p + 4] += s0 / h ** 3 * np.array(
-                [[12, 6 * h, -12, 6 * h], [6 * h, 4 * h * h, -6 * h, 2 * h * h],
-                 [-12, -6 * h, 12, -6 * h], [6 * h, 2 * h * h, -6 * h, 4 * h * h]])
-    zero = np.zeros(1)
-    for dof, kk in _node_terms(mesh, zero, False):
-        K[dof, dof] += float(kk[0])
-    for j, (node, ab) in enumerate(mesh.absorbers):
-        q = mesh.n_line_dofs + j
-        dof = mesh.dpn * node
-        K[dof, dof] += ab.stiffness
-        K[q, q] += ab.stiffness
-        K[dof, q] -= ab.stiffness
-        K[q, dof] -= ab.stiffness
-    return K
-
-
 def assemble_tridiagonal(mesh: Mesh, omega: np.ndarray, *, replaced: tuple[bool, bool] = (False, False)
                          ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Damped dynamic stiffness of the nodes of a second-order line as

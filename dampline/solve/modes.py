@@ -231,16 +231,14 @@ def _find_roots(counter: _Counter, targets: np.ndarray, hi0: float) -> np.ndarra
 
     widen = 1e-7
     for _ in range(12):
-        J_lo = counter.stable(lo)[0]
-        J_hi = counter.stable(hi)[0]
+        J_lo, _ev, J0_lo = counter.stable(lo)
+        J_hi, _ev, J0_hi = counter.stable(hi)
         bad = (J_lo >= targets) | (J_hi < targets)
         if not bad.any():
             break
         lo[bad] = np.maximum(lo[bad] - widen * hi[bad], 0.0)
         hi[bad] = hi[bad] * (1.0 + widen)
         widen *= 10.0
-    J_lo, ev_lo, J0_lo = counter.stable(lo)
-    J_hi, _ev, J0_hi = counter.stable(hi)
     simple = (J_lo == targets - 1) & (J_hi == targets) & (J0_lo == J0_hi) & (lo > 0)
     root = 0.5 * (lo + hi)
     if (~simple).any():

@@ -13,11 +13,11 @@ import argparse
 import math
 from pathlib import Path
 from typing import Sequence
-from xml.sax.saxutils import escape
 
 import numpy as np
 
 import dampline as dl
+from dampline.svgplot import Axes as _Axes
 
 __all__ = ["HORN", "main"]
 
@@ -43,80 +43,6 @@ HORN = {
 
 _COLOURS = ("#1f5fa8", "#c8501e", "#2e8b3a", "#8a3fa0")
 _DASH = "4 3"
-
-
-def _ticks(lo: float, hi: float, n: int = 6) -> np.ndarray:
-    """About n round tick values (1, 2 or 5 times a power of ten) inside [lo, hi]."""
-    raw = (hi - lo) / max(n, 1)
-    mag = 10.0 ** math.floor(math.log10(raw))
-    step = min((s * mag for s in (1, 2, 5, 10)), key=lambda s: abs(math.log(s / raw)))
-    t = np.arange(math.ceil(lo / step), math.floor(hi / step) + 1) * step
-    return t + 0.0                                  # no "-0" labels
-
-
-class _Axes:
-    """A rectangle of the SVG mapped to data ranges; collects SVG elements."""
-
-    def __init__(self, box: tuple[float, float, float, float], xlim, ylim):
-        self.left, self.top, self.width, self.height = box
-        self.xlim, self.ylim = xlim, ylim
-        self.parts: list[str] = []
-
-    def px(self, x):
-        x0, x1 = self.xlim
-        return self.left + (np.asarray(x) - x0) / (x1 - x0) * self.width
-
-    def py(self, y):
-        y0, y1 = self.ylim
-        return self.top + (y1 - np.asarray(y)) / (y1 - y0) * self.height
-
-    def add(self, element: str) -> None:
-        self.parts.append(element)
-
-    def polyline(self, x, y, colour: str, width: float = 1.5) -> None:
-        pts = " ".join(f"{a:.2f},{b:.2f}" for a, b in zip(self.px(x), self.py(y)))
-        self.add(f'<polyline points="{pts}" fill="none" stroke="{colour}" '
-                 f'stroke-width="{width}"/>')
-
-    def text(self, x: float, y: float, s: str, anchor: str = "middle", **attrs) -> None:
-        more = "".join(f' {k.replace("_", "-")}="{v}"' for k, v in attrs.items())
-        self.add(f'<text x="{x:.1f}" y="{y:.1f}" text-anchor="{anchor}"{more}>{escape(s)}</text>')
-
-    def frame(self, xlabel: str, ylabel: str) -> None:
-        """Box, grid, ticks and axis labels."""
-        b, r = self.top + self.height, self.left + self.width
-        for v in _ticks(*self.xlim):
-            x = float(self.px(v))
-            self.add(f'<line x1="{x:.1f}" y1="{self.top}" x2="{x:.1f}" y2="{b + 5}" '
-                     'stroke="#ddd"/>')
-            self.text(x, b + 18, f"{v:g}")
-        for v in _ticks(*self.ylim):
-            y = float(self.py(v))
-            self.add(f'<line x1="{self.left - 5}" y1="{y:.1f}" x2="{r}" y2="{y:.1f}" '
-                     'stroke="#ddd"/>')
-            self.text(self.left - 8, y + 4, f"{v:g}", anchor="end")
-        self.add(f'<rect x="{self.left}" y="{self.top}" width="{self.width}" height="{self.height}"'
-                 ' fill="none" stroke="#333"/>')
-        self.text(self.left + self.width / 2, b + 38, xlabel)
-        cy = self.top + self.height / 2
-        self.text(self.left - 52, cy, ylabel, transform=f"rotate(-90 {self.left - 52} {cy:.1f})")
-
-    def legend(self, entries: Sequence[tuple[str, str, str]]) -> None:
-        """One row of (label, colour, dash) under the axis label, clear of the curves."""
-        x, y = self.left, self.top + self.height + 58
-        for label, colour, dash in entries:
-            self.add(f'<line x1="{x}" y1="{y}" x2="{x + 24}" y2="{y}" stroke="{colour}" '
-                     f'stroke-width="2" stroke-dasharray="{dash or "none"}"/>')
-            self.text(x + 30, y + 4, label, anchor="start")
-            x += 44 + 6.5 * len(label)
-
-    def svg(self, title: str, width: int, height: int) -> str:
-        head = (f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" '
-                f'viewBox="0 0 {width} {height}" font-family="sans-serif" font-size="12">\n'
-                f'<rect width="100%" height="100%" fill="white"/>\n'
-                f'<text x="{width / 2}" y="22" text-anchor="middle" font-size="15">'
-                f'{escape(title)}</text>\n')
-        return head + "\n".join(self.parts) + "\n</svg>\n"
 
 
 def frf_svg(H: dl.FRF, natural_hz: np.ndarray, labels: Sequence[str], title: str) -> str:

@@ -8,8 +8,10 @@ the tolerances only cover float round-off (rtol 1e-9 on levels in dB).
 
 from __future__ import annotations
 
+import asyncio
 import subprocess
 import sys
+import xml.etree.ElementTree as ET
 
 import numpy as np
 import pytest
@@ -349,6 +351,113 @@ def test_exports(tmp_path):
     data = np.loadtxt(p, delimiter=",", skiprows=2)
     x, u = field_reference(d)
     np.testing.assert_allclose(data[:, 3], np.abs(u), rtol=1e-8)
+
+
+@pytest.mark.parametrize("kind", ["axial", "bending"])
+def test_browser_drag_follows_modal_then_settles(kind):
+    """A value sent by the front end (set_state, as a slider drag does) inside the
+    kernel's event loop: the modal curve and the field follow at once, the exact curve
+    waits for the drag to pause and then matches a direct dl.frf call."""
+    d = make(kind)
+    name = "eta" if kind == "axial" else "beta"
+    values = [0.004, 0.007, 0.011] if kind == "axial" else [2e-6, 4e-6, 5e-6]
+    exact_before = np.array(d.marks["exact"].y)
+    n_full = len(d.timings["total"])
+
+    async def drag():
+        for v in values:
+            d.controls[name].set_state({"value": v})
+        assert getattr(d.line.damping, name) == pytest.approx(values[-1])
+        modal = reference(d, "modal")
+        np.testing.assert_allclose(d.marks["modal"].y, db(modal)[:, 0], rtol=1e-9, atol=1e-9)
+        x, u = field_reference(d)
+        np.testing.assert_allclose(d.marks["envelope"].y[0], np.abs(u), rtol=1e-9, atol=1e-300)
+        np.testing.assert_array_equal(d.marks["exact"].y, exact_before)   # not yet
+        assert len(d.timings["total"]) == n_full and len(d.timings["quick"]) == len(values)
+        await asyncio.sleep(4 * dashboard_app.SETTLE_S)
+        assert len(d.timings["total"]) == n_full + 1          # one catch-up for the whole drag
+
+    asyncio.run(drag())
+    assert d.status.value == ""
+    assert_curves_match(d)
+    assert list(d.marks["exact"].opacities) == [1.0]
+
+
+def test_python_assignment_is_complete_inside_a_loop():
+    """An assignment from Python updates everything before it returns, also when an
+    event loop runs (a notebook cell)."""
+    d = make("axial")
+
+    async def assign():
+        d.controls["eta"].value = 0.009
+        assert_curves_match(d)
+
+    asyncio.run(assign())
+
+
+def test_magnitude_and_frequency_axis_toggles():
+    d = make("bending")
+    d.controls["magnitude"].value = "log"
+    m = d.marks
+    assert m["exact"].scales["y"] is d._ys_log and d._ax_db.scale is d._ys_log
+    exact = np.abs(np.asarray(reference(d, "exact"))[:, 0])
+    np.testing.assert_allclose(m["exact"].y, exact, rtol=1e-9)
+    y = np.asarray(m["exact"].y, dtype=float)
+    assert d._ys_log.min > 0 and d._ys_log.min <= np.nanmin(y) and d._ys_log.max >= np.nanmax(y)
+    assert d._ax_db.label == f"|H| ({d.frf_modal.unit})"
+    d.controls["frequency_axis"].value = "log"
+    for k in ("exact", "modal", "natural", "phase_exact", "phase_modal", "cursor"):
+        assert m[k].scales["x"] is d._xs_log
+    assert d._ax_f.scale is d._xs_log and d._selector.scale is d._xs_log
+    assert d._xs_log.min == pytest.approx(d.freqs[0])
+    d.controls["magnitude"].value = "dB"
+    assert_curves_match(d)
+    # zeros never reach the log magnitude axis: an undamped line has exact zeros
+    # (anti-resonances) and infinite peaks
+    d.controls["damping_model"].value = "none"
+    d.controls["magnitude"].value = "log"
+    assert d.status.value == ""
+    y = np.asarray(d.marks["exact"].y, dtype=float)
+    assert not (y[np.isfinite(y)] <= 0).any() and not np.isinf(y).any()
+
+
+@pytest.mark.parametrize("freqs", [[0.0, 10.0, 20.0], [10.0, 5.0], [1.0, np.nan], [3.0]])
+def test_bad_band_is_refused(freqs):
+    with pytest.raises(dl.ModelError, match="freqs_hz"):
+        dl.Dashboard(dl.Line.from_dict(SPECS["axial"]), freqs_hz=freqs, modes=N_MODES)
+
+
+def test_svg_and_png_exports(tmp_path):
+    d = make("duct")
+    d.controls["export_folder"].value = str(tmp_path / "out")
+    d.controls["export_svg"].click()
+    assert "Wrote" in d.status.value
+    for name in ("frf", "phase", "field"):
+        root = ET.parse(tmp_path / "out" / f"{name}.svg").getroot()
+        assert root.tag.endswith("svg")
+        polys = [e for e in root.iter() if e.tag.endswith("polyline")]
+        assert polys, name
+    # the FRF picture holds the exact curve: its points follow the level in dB
+    root = ET.parse(tmp_path / "out" / "frf.svg").getroot()
+    pts = [e.get("points") for e in root.iter() if e.tag.endswith("polyline")][0].split()
+    assert len(pts) == N_FREQ
+    sent = []
+    for fig in list(d.figures.values()) + [d.peak_figure]:
+        fig.send = lambda msg, buffers=None, _s=sent: _s.append(msg)
+    d.controls["export_png"].click()
+    assert [m["type"] for m in sent] == ["save_png"] * 5
+    assert all(m["filename"].endswith(".png") for m in sent)
+    d.controls["export_model"].click()
+    assert dl.load(tmp_path / "out" / "model.toml") == d.line
+    d.controls["export_folder"].value = str(tmp_path / "out" / "model.toml")   # a file, not a folder
+    d.controls["export_frf"].click()
+    assert "Export failed" in d.status.value
+
+
+def test_coupling_ticks_do_not_crowd():
+    d = dl.Dashboard(dl.Line.from_dict(SPECS["axial"]), n_freq=N_FREQ, modes=40)
+    ticks = list(d._ax_col.tick_values)
+    assert 1 < len(ticks) <= 15 and ticks[-1] == 40
 
 
 def test_from_path(tmp_path):

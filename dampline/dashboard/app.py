@@ -10,6 +10,7 @@ curve).
 
 from __future__ import annotations
 
+import asyncio
 import copy
 import html
 import math
@@ -54,6 +55,23 @@ _BLUE, _ORANGE, _GREY, _GREEN, _RED = "#1f5fa8", "#c8501e", "#9a9a9a", "#2e8b3a"
 
 #: samples across each peak for the coupled-vs-decoupled difference (+-4 bandwidths)
 PEAK_POINTS = 41
+#: seconds a browser drag of a damping slider must pause before the exact curve, the
+#: modal table and the coupling view catch up (the modal curve follows every step)
+SETTLE_S = 0.12
+_DAMPING_SLIDERS = ("eta", "zeta", "alpha", "beta")
+
+
+def _from_browser(widget) -> bool:
+    """True while ipywidgets applies a value sent by the front end (it holds the
+    property lock then); False for an assignment made in Python."""
+    return "value" in getattr(widget, "_property_lock", {})
+
+
+def _running_loop():
+    try:
+        return asyncio.get_running_loop()
+    except RuntimeError:
+        return None
 
 
 def _db(values: np.ndarray) -> np.ndarray:
@@ -107,8 +125,11 @@ class Dashboard(W.VBox):
         self.n_modes = int(modes)
         self.n_points = int(n_points)
         self.timings: dict[str, list[float]] = {"modal": [], "exact": [], "field": [],
-                                                 "tables": [], "modes": [], "total": []}
+                                                 "tables": [], "modes": [], "total": [],
+                                                 "quick": []}
         self._busy = False
+        self._pending = 0            # generation of the latest quick (browser drag) update
+        self._stale = False          # exact curve and tables lag a quick update
         self.line = line
         self._modes_key = _geometry_key(self._spec)
         self._modeset = dl.modes(line, self.n_modes)
@@ -120,14 +141,18 @@ class Dashboard(W.VBox):
             lo, hi = _BAND[0] * el[0], _BAND[1] * el[min(9, el.size - 1)]
             self.freqs = np.linspace(lo, hi, int(n_freq))
         else:
-            self.freqs = np.asarray(freqs_hz, dtype=float).ravel()
+            f = np.asarray(freqs_hz, dtype=float).ravel()
+            if f.size < 2 or not np.isfinite(f).all() or (f <= 0).any() or (np.diff(f) <= 0).any():
+                raise dl.ModelError("freqs_hz", freqs_hz if f.size < 8 else f"{f.size} values", "Hz",
+                                    "give at least two finite, positive, increasing frequencies")
+            self.freqs = f
         self.drive = "volume_velocity" if line.kind == "duct" else "force"
         self.status = W.HTML(value="")
         self._build_controls(line, el)
         self._build_figures(line)
         self._layout()
         self._connect()
-        self._recompute()
+        self._recompute_all()          # a model that cannot be solved raises here
         self._sync_geometry_marks()
 
     # ------------------------------------------------------------------ controls
@@ -159,6 +184,20 @@ class Dashboard(W.VBox):
         c["coupling"] = W.ToggleButtons(options=["full", "diagonal"], value="full",
                                         description="modal damping", style=st)
         c["overlay"] = W.Checkbox(value=True, description="show the modal curve")
+        c["magnitude"] = W.ToggleButtons(options=["dB", "log"], value="dB", description="magnitude",
+                                         style=st, tooltips=["20 log10 |H| re 1 unit", "|H| on a log scale"])
+        c["frequency_axis"] = W.ToggleButtons(options=["linear", "log"], value="linear",
+                                              description="frequency axis", style=st)
+        c["export_folder"] = W.Text(value="dampline-export", description="export folder",
+                                    style=st, layout=W.Layout(width="340px"))
+        for key, label, tip in (
+                ("export_model", "model TOML", "the current model as a TOML file"),
+                ("export_frf", "FRF CSV", "exact and modal FRF with units in the header"),
+                ("export_field", "field CSV", "the response along the line at the selected frequency"),
+                ("export_svg", "figures SVG", "FRF, phase and field as SVG files written by the kernel"),
+                ("export_png", "figures PNG", "the figures as shown, downloaded by the browser"),
+                ("export_record", "record notebook", "an executed notebook and an offline HTML page")):
+            c[key] = W.Button(description=label, tooltip=tip, layout=W.Layout(width="110px"))
         c["modes"] = W.IntSlider(value=self.n_modes, min=1, max=self.n_modes, description="modes",
                                  continuous_update=False, style=st, layout=W.Layout(width="340px"))
         xd = self._default_drive(line)
@@ -242,10 +281,15 @@ class Dashboard(W.VBox):
     # ------------------------------------------------------------------ figures
     def _build_figures(self, line: dl.Line) -> None:
         f = self.freqs
-        self._xs = bq.LinearScale(min=float(f[0]), max=float(f[-1]))
+        self._xs_lin = bq.LinearScale(min=float(f[0]), max=float(f[-1]))
+        self._xs_log = bq.LogScale(min=float(f[0]), max=float(f[-1]))     # f > 0 checked
+        self._xs = self._xs_lin
         ys_db = bq.LinearScale()
+        self._ys_db = ys_db
+        self._ys_log = bq.LogScale(min=1e-12, max=1.0)
         ys_ph = bq.LinearScale(min=-_HALF_TURN, max=_HALF_TURN)
         ys_unit = bq.LinearScale(min=0.0, max=1.0)
+        self._ys_ph, self._ys_unit = ys_ph, ys_unit
         nan = np.full(f.size, np.nan)
         self.marks: dict[str, bq.Mark] = {}
         m = self.marks
@@ -263,6 +307,7 @@ class Dashboard(W.VBox):
         self._ax_db = bq.Axis(scale=ys_db, side="left", label="|H| dB re 1",
                               grid_lines="dashed")
         ax_f = bq.Axis(scale=self._xs, label="frequency (Hz)", grid_lines="dashed")
+        self._ax_f = ax_f
         self._selector = IndexSelector(scale=self._xs, marks=[m["exact"]])
         frf_fig = bq.Figure(marks=[m["exact"], m["modal"], m["natural"], m["cursor"]],
                             axes=[ax_f, self._ax_db], title="Frequency response",
@@ -274,8 +319,9 @@ class Dashboard(W.VBox):
                                     line_style="dashed")
         m["phase_cursor"] = bq.Lines(x=[0.0, 0.0], y=[0.0, 1.0], scales={"x": self._xs, "y": ys_unit},
                                      colors=[_RED], stroke_width=1)
+        self._ax_f_phase = bq.Axis(scale=self._xs, label="frequency (Hz)", grid_lines="dashed")
         phase_fig = bq.Figure(marks=[m["phase_exact"], m["phase_modal"], m["phase_cursor"]],
-                              axes=[bq.Axis(scale=self._xs, label="frequency (Hz)", grid_lines="dashed"),
+                              axes=[self._ax_f_phase,
                                     bq.Axis(scale=ys_ph, side="left", label="phase (deg)",
                                             tick_values=np.linspace(-_HALF_TURN, _HALF_TURN, 5))],
                               title="Phase", layout=W.Layout(width="760px", height="220px"),
@@ -314,9 +360,10 @@ class Dashboard(W.VBox):
         m["coupling"] = bq.GridHeatMap(row=np.array([1.0, 2.0]), column=np.array([1.0, 2.0]), color=np.zeros((2, 2)),
                                        scales={"row": self._row, "column": self._col, "color": col_sc},
                                        stroke="white")
+        self._ax_col = bq.Axis(scale=self._col, label="mode")
+        self._ax_row = bq.Axis(scale=self._row, side="left", label="mode")
         coup_fig = bq.Figure(marks=[m["coupling"]],
-                             axes=[bq.Axis(scale=self._col, label="mode", tick_values=None),
-                                   bq.Axis(scale=self._row, side="left", label="mode"),
+                             axes=[self._ax_col, self._ax_row,
                                    bq.ColorAxis(scale=col_sc, side="right")],
                              title="|B_ij| / sqrt(B_ii B_jj)",
                              layout=W.Layout(width="440px", height="420px"))
@@ -335,12 +382,16 @@ class Dashboard(W.VBox):
         c = self.controls
         title = W.HTML(value=f"<b>{html.escape(self.line.title or self.line.kind + ' line')}</b>")
         damping_box = W.VBox([W.HTML("<b>Damping</b>"), c["damping_model"], c["eta"], c["zeta"],
-                              c["alpha"], c["beta"], c["coupling"], c["modes"], c["overlay"]])
+                              c["alpha"], c["beta"], c["coupling"], c["modes"], c["overlay"],
+                              c["magnitude"], c["frequency_axis"]])
+        exports = W.VBox([W.HTML("<b>Export</b>"), c["export_folder"],
+                          W.HBox([c["export_model"], c["export_frf"], c["export_field"]]),
+                          W.HBox([c["export_svg"], c["export_png"], c["export_record"]])])
         points_box = W.VBox([W.HTML("<b>Drive and response</b>"), c["drive_at"], c["response_at"],
                              c["frequency"], c["quantity"], W.HBox([W.Label("animate"), c["animate"]])])
         model_box = W.VBox([W.HTML("<b>Model</b>")] + [c[n] for n in self._geometry_names
                                                         + self._damping_names])
-        side = W.VBox([damping_box, points_box, model_box])
+        side = W.VBox([damping_box, points_box, model_box, exports])
         plots = W.VBox([self.figures["frf"], self.figures["phase"], self.figures["field"]])
         bottom = W.HBox([self.figures["coupling"], W.VBox([self.peak_figure, self.table])])
         self.children = [title, self.status, W.HBox([side, plots]), bottom]
@@ -355,6 +406,16 @@ class Dashboard(W.VBox):
         c["frequency"].observe(self._on_frequency, names="value")
         c["quantity"].observe(self._on_frequency, names="value")
         c["overlay"].observe(self._on_overlay, names="value")
+        c["magnitude"].observe(self._on_axes, names="value")
+        c["frequency_axis"].observe(self._on_axes, names="value")
+        actions = {"export_model": lambda: self.export_toml(self._export_path("model.toml")),
+                   "export_frf": lambda: self.export_csv(self._export_path("frf.csv")),
+                   "export_field": lambda: self.export_field_csv(self._export_path("field.csv")),
+                   "export_svg": lambda: self.export_svg(self._export_dir()),
+                   "export_png": self.download_png,
+                   "export_record": lambda: self.export_record(self._export_dir())}
+        for key, fn in actions.items():
+            c[key].on_click(lambda _b, fn=fn: self._export(fn))
         c["animate"].observe(self._on_animate, names="value")
         self._selector.observe(self._on_select, names="selected")
         self.marks["response"].observe(self._on_marker, names="x")
@@ -366,6 +427,22 @@ class Dashboard(W.VBox):
             self._show_damping_controls()
         if change["owner"] is self.controls["zeta"]:
             self._zeta_list = None
+        owner = change["owner"]
+        loop = _running_loop()
+        if (loop is not None and _from_browser(owner)
+                and any(owner is self.controls[k] for k in _DAMPING_SLIDERS)):
+            # a drag in the browser: the modal curve (cached modes, a re-sum) and the
+            # field follow every step; the exact curve, the modal table and the
+            # coupling view catch up once the drag pauses for SETTLE_S
+            if self._guarded(self._quick_update):
+                self._pending += 1
+                loop.call_later(SETTLE_S, self._settle, self._pending)
+            return
+        self._recompute()
+
+    def _settle(self, generation: int) -> None:
+        if generation != self._pending or not self._stale:
+            return                   # a later move is on its way, or already caught up
         self._recompute()
 
     def _on_frequency(self, change) -> None:
@@ -376,6 +453,25 @@ class Dashboard(W.VBox):
     def _on_overlay(self, change) -> None:
         self.marks["modal"].visible = bool(change["new"])
         self.marks["phase_modal"].visible = bool(change["new"])
+
+    def _on_axes(self, change) -> None:
+        """Swap the magnitude (dB or log |H|) and frequency (linear or log) scales of the
+        FRF and phase views; the marks keep sharing one x-scale."""
+        c, m = self.controls, self.marks
+        xs = self._xs_log if c["frequency_axis"].value == "log" else self._xs_lin
+        ys = self._ys_log if c["magnitude"].value == "log" else self._ys_db
+        self._xs = xs
+        for k in ("exact", "modal", "natural"):
+            m[k].scales = {"x": xs, "y": ys}
+        for k in ("phase_exact", "phase_modal"):
+            m[k].scales = {"x": xs, "y": self._ys_ph}
+        for k in ("cursor", "phase_cursor"):
+            m[k].scales = {"x": xs, "y": self._ys_unit}
+        self._ax_f.scale = xs
+        self._ax_f_phase.scale = xs
+        self._ax_db.scale = ys
+        self._selector.scale = xs
+        self._draw_frf()
 
     def _on_animate(self, change) -> None:
         self._draw_shape()
@@ -434,6 +530,23 @@ class Dashboard(W.VBox):
     def _recompute(self) -> bool:
         return self._guarded(self._recompute_all)
 
+    def _quick_update(self) -> None:
+        """Damping moved: rebuild the line, re-sum the modal curve with the cached modes,
+        redraw it and the field; the exact curve is dimmed until it catches up."""
+        t0 = time.perf_counter()
+        c = self.controls
+        line = dl.Line.from_dict(self._spec_from_controls())
+        modal = dl.frf(line, self.freqs, drive_at=self.drive_at, response_at=[self.response_at],
+                       drive=self.drive, method="modal", modes=self._ms,
+                       coupling=c["coupling"].value)
+        self.line, self.frf_modal = line, modal
+        self._stale = True
+        self._draw_modal()
+        if self.frf_exact is not None and line.damping.model != "modal":
+            self.marks["exact"].opacities = [_OPACITY / 2]
+        self._update_field()
+        self.timings["quick"].append(time.perf_counter() - t0)
+
     def _recompute_all(self) -> None:
         t0 = time.perf_counter()
         c = self.controls
@@ -472,6 +585,7 @@ class Dashboard(W.VBox):
         self._ms, self.frf_modal, self.frf_exact = ms, modal, exact
         self.modal_table, self.coupling = table, coup
         self.drive_at, self.response_at = xd, xr
+        self._stale = False
         t = time.perf_counter()
         self._draw_frf()
         t_modal += time.perf_counter() - t
@@ -488,17 +602,32 @@ class Dashboard(W.VBox):
         self.timings["total"].append(time.perf_counter() - t0)
 
     # ------------------------------------------------------------------ drawing
-    def _draw_frf(self) -> None:
+    def _draw_modal(self) -> np.ndarray:
         m = self.marks
         modal = np.asarray(self.frf_modal)[:, 0]
-        db_modal = _db(modal)
+        y_modal = self._level(modal)
         with m["modal"].hold_sync():
-            m["modal"].y = db_modal
+            m["modal"].y = y_modal
         with m["phase_modal"].hold_sync():
             m["phase_modal"].y = _finite(np.degrees(np.angle(modal)))
+        return y_modal
+
+    def _level(self, H: np.ndarray) -> np.ndarray:
+        """What the magnitude axis shows: dB re 1 unit, or |H| on a log scale (zeros,
+        inf and NaN masked to NaN, so nothing non-positive reaches the log axis)."""
+        if self.controls["magnitude"].value == "dB":
+            return _db(H)
+        mag = _finite(np.abs(H))
+        mag[~(mag > 0)] = np.nan
+        return mag
+
+    def _draw_frf(self) -> None:
+        m = self.marks
+        db_modal = self._draw_modal()
+        m["exact"].opacities = [1.0]
         if self.frf_exact is not None:
             ex = np.asarray(self.frf_exact)[:, 0]
-            db_ref = _db(ex)
+            db_ref = self._level(ex)
             with m["exact"].hold_sync():
                 m["exact"].y = db_ref
                 m["exact"].visible = True
@@ -513,7 +642,17 @@ class Dashboard(W.VBox):
             with m["phase_exact"].hold_sync():
                 m["phase_exact"].y = np.full(self.freqs.size, np.nan)
                 m["phase_exact"].visible = False
-        self._ax_db.label = f"|H| dB re 1 {self.frf_modal.unit}"
+        unit = self.frf_modal.unit
+        if self.controls["magnitude"].value == "dB":
+            self._ax_db.label = f"|H| dB re 1 {unit}"
+        else:
+            self._ax_db.label = f"|H| ({unit})"
+            finite = np.concatenate([db_modal[np.isfinite(db_modal)],
+                                     db_ref[np.isfinite(db_ref)]])
+            if finite.size:              # a log scale needs explicit positive limits
+                lo, hi = float(finite.min()), float(finite.max())
+                with self._ys_log.hold_trait_notifications():
+                    self._ys_log.min, self._ys_log.max = lo / 1.5, hi * 1.5
         # natural-frequency markers on the curve, with the damping ratio in the tooltip
         fn = self._ms.frequencies
         zeta = self.modal_table["damping_ratio"]
@@ -555,6 +694,11 @@ class Dashboard(W.VBox):
                 if old is None or old.shape != color.shape:
                     hm.row = modes_
                     hm.column = modes_
+                    # a label per mode crowds past ~15 modes: label every 2nd, 5th or 10th
+                    step = next(k for k in (1, 2, 5, 10, 20, 50) if n / k <= 15)
+                    ticks = modes_[step - 1::step] if step > 1 else modes_
+                    self._ax_col.tick_values = ticks
+                    self._ax_row.tick_values = ticks
                 hm.color = color
         bars = self.marks["peak_difference"]
         with bars.hold_sync():
@@ -652,6 +796,79 @@ class Dashboard(W.VBox):
             self.marks["shape"].y = shape
 
     # ------------------------------------------------------------------ exports
+    def _export_dir(self) -> Path:
+        folder = Path(self.controls["export_folder"].value.strip() or ".").expanduser()
+        folder.mkdir(parents=True, exist_ok=True)
+        return folder
+
+    def _export_path(self, name: str) -> Path:
+        return self._export_dir() / name
+
+    def _export(self, fn) -> None:
+        try:
+            out = fn()
+        except Exception as exc:
+            self.status.value = (f"<span style='color:{_RED}'><b>Export failed:</b> "
+                                 f"{html.escape(type(exc).__name__)}: {html.escape(str(exc))}</span>")
+            return
+        paths = out if isinstance(out, (list, tuple)) else [out]
+        self.status.value = ("<span style='color:" + _GREEN + "'>Wrote " +
+                             ", ".join(html.escape(str(p)) for p in paths) + "</span>")
+
+    def export_svg(self, folder) -> list[Path]:
+        """The FRF (magnitude and phase) and the field along the line as SVG files
+        (``frf.svg``, ``phase.svg``, ``field.svg`` in ``folder``), drawn from the
+        computed arrays by the kernel, so no browser is needed."""
+        from dampline.svgplot import curves_svg
+        folder = Path(folder)
+        folder.mkdir(parents=True, exist_ok=True)
+        c = self.controls
+        xlog = c["frequency_axis"].value == "log"
+        ylog = c["magnitude"].value == "log"
+        unit = self.frf_modal.unit
+        curves = []
+        phases = []
+        for name, H, colour, dash in (("exact", self.frf_exact, _BLUE, ""),
+                                      ("modal", self.frf_modal, _ORANGE, "6 4")):
+            if H is None:
+                continue
+            v = np.asarray(H)[:, 0]
+            curves.append((np.abs(v) if ylog else _db(v), name, colour, dash))
+            phases.append((np.degrees(np.angle(v)), name, colour, dash))
+        title = self.line.title or f"{self.line.kind} line"
+        where = f"drive at {self.drive_at:.4g} m, response at {self.response_at:.4g} m"
+        ylabel = f"|H| ({unit})" if ylog else f"|H| (dB re 1 {unit})"
+        out = [write_text_atomic(folder / "frf.svg", curves_svg(
+                   self.freqs, curves, xlabel="frequency (Hz)", ylabel=ylabel,
+                   title=f"{title}: {self.frf_modal.quantity}, {where}", xlog=xlog, ylog=ylog)),
+               write_text_atomic(folder / "phase.svg", curves_svg(
+                   self.freqs, phases, xlabel="frequency (Hz)", ylabel="phase (deg)",
+                   title=f"{title}: phase, {where}", xlog=xlog))]
+        u = np.asarray(self.field)[0]
+        f_sel = float(self.field.frequencies[0])
+        label = dict((v, k) for k, v in c["quantity"].options)[self.field.quantity]
+        out.append(write_text_atomic(folder / "field.svg", curves_svg(
+            self.field_x, [(np.abs(u), "envelope |u|", _BLUE, ""), (u.real, "in phase", _ORANGE, "6 4")],
+            xlabel="position x (m)", ylabel=f"{label} ({self.field.unit})",
+            title=f"{title}: along the line at {f_sel:.5g} Hz")))
+        return out
+
+    def download_png(self) -> list[str]:
+        """Ask the browser to download each figure as shown, as PNG (bqplot's
+        ``save_png``: needs a live view of the dashboard)."""
+        names = []
+        for name, fig in list(self.figures.items()) + [("peaks", self.peak_figure)]:
+            fig.save_png(f"dampline-{name}.png")
+            names.append(f"dampline-{name}.png (browser download)")
+        return names
+
+    def export_record(self, folder) -> list[Path]:
+        """An executed notebook of the current model (with the dashboard and the modal
+        table) and an offline HTML page of it, in ``folder`` (see ``dampline.record``)."""
+        from dampline.record import record_model
+        res = record_model(self.line, Path(folder), title=self.line.title)
+        return [p for p in (res.notebook, res.html) if p is not None]
+
     def export_toml(self, path) -> Path:
         """The current model as TOML (loads back with ``dl.load``)."""
         return write_text_atomic(path, dl.dumps(self.line))

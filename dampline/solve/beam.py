@@ -36,18 +36,22 @@ def fourth_root(x: np.ndarray) -> np.ndarray:
     return np.power(np.asarray(x, dtype=complex), 0.25)
 
 
+#: 1/(4k+m)!: row m, column k, of the Krylov-Duncan series C_m(z) = z^m sum_k z^(4k) / (4k+m)!
+_KCOEF = np.array([[1.0 / math.factorial(4 * k + m) for k in range(_NTERMS)] for m in range(4)])
+
+
 def _krylov(z: np.ndarray) -> list[np.ndarray]:
-    """C0..C3 at z (|z| < 1), by their series."""
-    z4 = z ** 4
-    out = []
-    for m in range(4):
-        term = z ** m / math.factorial(m)
-        acc = term.copy()
-        for k in range(1, _NTERMS):
-            term = term * z4 / ((4 * k + m) * (4 * k + m - 1) * (4 * k + m - 2) * (4 * k + m - 3))
-            acc = acc + term
-        out.append(acc)
-    return out
+    """C0..C3 at z (|z| < 1), by their series: the powers z^(4k) are formed once and
+    all four series are one small real-by-complex product."""
+    z = np.asarray(z, dtype=complex)
+    z2 = z * z
+    z4 = z2 * z2
+    P = np.empty((_NTERMS,) + z.shape, dtype=complex)
+    P[0] = 1.0
+    for k in range(1, _NTERMS):
+        np.multiply(P[k - 1], z4, out=P[k])
+    S = np.tensordot(_KCOEF, P, axes=1)
+    return [S[0], z * S[1], z2 * S[2], z2 * z * S[3]]
 
 
 def _inv2(p, q, r, s):

@@ -131,6 +131,27 @@ def check_request(line: Line, drive: str, quantity: str | None, drive_at) -> tup
     return drive, quantity, xd, side
 
 
+#: complex entries per frequency chunk of one response (n_freq x n_resp): a long request
+#: (say 100,000 frequencies x 1,000 points) is solved chunk by chunk into one output
+#: array, so the temporaries stay at tens of MB whatever the request's size
+CHUNK_ENTRIES = 2_000_000
+
+
+def by_frequency_chunks(fn, f: np.ndarray, width: int) -> np.ndarray:
+    """fn(f_chunk) -> (len(f_chunk), width) complex, evaluated over chunks of ``f`` and
+    written into one (len(f), width) array (a loop over chunks, not frequencies)."""
+    step = max(64, CHUNK_ENTRIES // max(int(width), 1))
+    if f.size <= step:
+        return fn(f)
+    out = None
+    for a in range(0, f.size, step):
+        part = fn(f[a:a + step])
+        if out is None:
+            out = np.empty((f.size,) + part.shape[1:], dtype=part.dtype)
+        out[a:a + step] = part
+    return out
+
+
 def frf(line: Line, freqs_hz, drive_at: float = 0.0, response_at=(0.0,), drive: str = "force",
         quantity: str | None = None, method: str = "exact", **options) -> FRF:
     """Frequency response of ``line`` at ``response_at`` for one drive at ``drive_at``.
@@ -183,7 +204,8 @@ def frf(line: Line, freqs_hz, drive_at: float = 0.0, response_at=(0.0,), drive: 
     if line.damping.model == "modal":
         raise ModelError("damping.model", "modal", "", "modal damping (zeta per mode) has no "
                          "exact distributed form; use method='modal'")
-    values = _exact(line, f, xd, xr, drive, quantity, side)
+    values = by_frequency_chunks(lambda fc: _exact(line, fc, xd, xr, drive, quantity, side),
+                                 f, xr.size + 16)
     return FRF(frequencies=f, values=values, quantity=quantity,
                unit=quantity_unit(line.kind, quantity, drive), drive=drive, drive_at=xd,
                response_at=xr, method="exact", kind=line.kind)

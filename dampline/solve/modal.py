@@ -640,14 +640,25 @@ def modal_frf(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, 
                          "support; use method='exact' for it")
     ms = resolve_modes(line, modes)
     mm = modal_model(line, ms)
-    omega = 2.0 * math.pi * f
-    w = omega[:, None]
     order = _ORDER.get(quantity, 3 if line.kind == "bending" else 1)
     phi_d = _drive_vector(ms, xd, drive)
     phi_r = ms.shape(xr, derivative=order)                       # (n_resp, N)
+    res = residual_field(mm, xd, drive, xr, order) if residual else None
+
+    def chunk(fc: np.ndarray) -> np.ndarray:
+        return _modal_tail(line, ms, mm, 2.0 * math.pi * fc, xd, xr, drive, quantity, coupling,
+                           phi_d, phi_r, res)
+
+    from .exact import by_frequency_chunks
+    return by_frequency_chunks(chunk, f, xr.size + ms.count + 1)
+
+
+def _modal_tail(line, ms, mm, omega, xd, xr, drive, quantity, coupling, phi_d, phi_r, res):
+    """The frequency-dependent part of :func:`modal_frf` for one chunk of frequencies."""
+    w = omega[:, None]
     extra = None
-    if residual:
-        R, scale = residual_field(mm, xd, drive, xr, order)
+    if res is not None:
+        R, scale = res
         extra = (scale(omega).astype(complex), R.astype(complex))
     H = modal_response(mm, omega, phi_d, phi_r, coupling, extra)  # field per unit load
     if drive == "volume_velocity":

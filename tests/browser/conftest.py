@@ -180,7 +180,8 @@ def page(browser_requirements):
     with sync_playwright() as pw:
         browser = pw.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS, headless=True)
         try:
-            context = browser.new_context(viewport={"width": 1600, "height": 2400})
+            context = browser.new_context(viewport={"width": 1600, "height": 2400},
+                                          accept_downloads=True)
             pg = context.new_page()
             pg.console_errors = []  # type: ignore[attr-defined]
             pg.on("console", lambda m: m.type == "error" and pg.console_errors.append(m.text))

@@ -196,6 +196,7 @@ def test_dashboard_in_jupyterlab(lab_server, page, tmp_path, record_property):
         assert eta is not None, "no slider handle for the 'eta' control"
         eta.scroll_into_view_if_needed()
 
+        exact0 = frf.get_attribute("d")          # the first line of the FRF view is the exact curve
         # Find a direction the slider can move in, then alternate so it never hits an end.
         keys = ["ArrowRight", "ArrowLeft"]
         first = _move_and_time(page, eta, keys[0], ".dl-fig-frf")
@@ -213,6 +214,32 @@ def test_dashboard_in_jupyterlab(lab_server, page, tmp_path, record_property):
         _settle(page)
         timings["eta_redraw_ms"] = [round(s, 1) for s in samples]
         timings["eta_redraw_median_ms"] = round(statistics.median(samples), 1)
+        # during the drag the modal curve follows; once it pauses the exact curve catches up
+        # (one more step: the alternating moves above end where they began)
+        assert _move_and_time(page, eta, keys[0], ".dl-fig-frf") is not None
+        page.wait_for_function(
+            "(d0) => document.querySelector('.dl-fig-frf svg path.line').getAttribute('d') !== d0",
+            arg=exact0, timeout=REDRAW_TIMEOUT_MS)
+
+        # log frequency axis: the FRF path is redrawn on the new scale
+        before = frf.get_attribute("d")
+        page.locator(".dl-ctl-frequency_axis button", has_text="log").first.click()
+        page.wait_for_function(
+            "(d0) => document.querySelector('.dl-fig-frf svg path.line').getAttribute('d') !== d0",
+            arg=before, timeout=REDRAW_TIMEOUT_MS)
+        page.locator(".dl-ctl-frequency_axis button", has_text="linear").first.click()
+        _settle(page)
+
+        # figures as PNG: the browser downloads one image per figure
+        with page.expect_download(timeout=REDRAW_TIMEOUT_MS) as dl_info:
+            page.locator(".dl-ctl-export_png").first.click()
+        download = dl_info.value
+        png_path = tmp_path / download.suggested_filename
+        download.save_as(str(png_path))
+        head = png_path.read_bytes()[:8]
+        assert head == b"\x89PNG\r\n\x1a\n", (download.suggested_filename, head)
+        timings["png_download"] = download.suggested_filename
+        _settle(page)
 
         # Frequency cursor: keyboard on its slider handle when it has one; the field view
         # (or failing that the FRF, where the cursor is drawn) must redraw.

@@ -400,6 +400,7 @@ def test_magnitude_and_frequency_axis_toggles():
     d.controls["magnitude"].value = "log"
     m = d.marks
     assert m["exact"].scales["y"] is d._ys_log and d._ax_db.scale is d._ys_log
+    assert d.figures["frf"].axes[1] is d._ax_db
     exact = np.abs(np.asarray(reference(d, "exact"))[:, 0])
     np.testing.assert_allclose(m["exact"].y, exact, rtol=1e-9)
     y = np.asarray(m["exact"].y, dtype=float)
@@ -409,6 +410,8 @@ def test_magnitude_and_frequency_axis_toggles():
     for k in ("exact", "modal", "natural", "phase_exact", "phase_modal", "cursor"):
         assert m[k].scales["x"] is d._xs_log
     assert d._ax_f.scale is d._xs_log and d._selector.scale is d._xs_log
+    assert d.figures["frf"].axes[0].scale is d._xs_log
+    assert d.figures["phase"].axes[0].scale is d._xs_log
     assert d._xs_log.min == pytest.approx(d.freqs[0])
     d.controls["magnitude"].value = "dB"
     assert_curves_match(d)
@@ -454,10 +457,23 @@ def test_svg_and_png_exports(tmp_path):
     assert "Export failed" in d.status.value
 
 
+def test_line_drawing_shows_the_ends():
+    d = make("bending")                      # clamped left end, free right end
+    assert list(d.marks["end_held"].x) == [0.0] and list(d.marks["end_held"].names) == ["clamped"]
+    assert len(d.marks["end_table"].x) == 0
+    spec = dict(SPECS["axial"], ends={"left": "fixed", "right": {"spring": 2e6, "dashpot": 30.0}})
+    a = dl.Dashboard(dl.Line.from_dict(spec), n_freq=N_FREQ, modes=N_MODES)
+    assert list(a.marks["end_table"].x) == pytest.approx([a.line.length])
+    assert "spring 2e+06" in a.marks["end_table"].names[0]
+    assert list(a.marks["attachments"].x) == pytest.approx([0.8])
+    # segments to scale: outline heights follow sqrt(area)
+    h = [max(y) for y in a.marks["segments"].y]
+    assert h[1] / h[0] == pytest.approx(np.sqrt(1e-4 / 2e-4))
+
+
 def test_coupling_ticks_do_not_crowd():
     d = dl.Dashboard(dl.Line.from_dict(SPECS["axial"]), n_freq=N_FREQ, modes=40)
-    ticks = list(d._ax_col.tick_values)
-    assert 1 < len(ticks) <= 15 and ticks[-1] == 40
+    assert d._ax_col.num_ticks == d._ax_row.num_ticks == 11
 
 
 def test_from_path(tmp_path):

@@ -304,9 +304,15 @@ class Dashboard(W.VBox):
                                                      labels=["mode", "f (Hz)"]))
         m["cursor"] = bq.Lines(x=[0.0, 0.0], y=[0.0, 1.0], scales={"x": self._xs, "y": ys_unit},
                                colors=[_RED], stroke_width=1)
-        self._ax_db = bq.Axis(scale=ys_db, side="left", label="|H| dB re 1",
-                              grid_lines="dashed")
-        ax_f = bq.Axis(scale=self._xs, label="frequency (Hz)", grid_lines="dashed")
+        # one axis object per scale: a view swaps whole axes (re-created cleanly in the
+        # browser) rather than re-pointing an axis at another scale
+        self._ax_mag = {"dB": bq.Axis(scale=ys_db, side="left", label="|H| dB re 1", grid_lines="dashed"),
+                        "log": bq.Axis(scale=self._ys_log, side="left", label="|H|", grid_lines="dashed")}
+        self._ax_db = self._ax_mag["dB"]
+        self._ax_freq = {view: {s: bq.Axis(scale=sc, label="frequency (Hz)", grid_lines="dashed")
+                                for s, sc in (("linear", self._xs_lin), ("log", self._xs_log))}
+                         for view in ("frf", "phase")}
+        ax_f = self._ax_freq["frf"]["linear"]
         self._ax_f = ax_f
         self._selector = IndexSelector(scale=self._xs, marks=[m["exact"]])
         frf_fig = bq.Figure(marks=[m["exact"], m["modal"], m["natural"], m["cursor"]],
@@ -319,11 +325,11 @@ class Dashboard(W.VBox):
                                     line_style="dashed")
         m["phase_cursor"] = bq.Lines(x=[0.0, 0.0], y=[0.0, 1.0], scales={"x": self._xs, "y": ys_unit},
                                      colors=[_RED], stroke_width=1)
-        self._ax_f_phase = bq.Axis(scale=self._xs, label="frequency (Hz)", grid_lines="dashed")
+        self._ax_f_phase = self._ax_freq["phase"]["linear"]
+        self._ax_phase = bq.Axis(scale=ys_ph, side="left", label="phase (deg)",
+                                 tick_values=np.linspace(-_HALF_TURN, _HALF_TURN, 5))
         phase_fig = bq.Figure(marks=[m["phase_exact"], m["phase_modal"], m["phase_cursor"]],
-                              axes=[self._ax_f_phase,
-                                    bq.Axis(scale=ys_ph, side="left", label="phase (deg)",
-                                            tick_values=np.linspace(-_HALF_TURN, _HALF_TURN, 5))],
+                              axes=[self._ax_f_phase, self._ax_phase],
                               title="Phase", layout=W.Layout(width="760px", height="220px"),
                               fig_margin={"top": 40, "bottom": 40, "left": 70, "right": 20})
         # field view: geometry on its own y-scale, drawn first so the curves lie over it
@@ -336,6 +342,15 @@ class Dashboard(W.VBox):
                                  colors=[_GREY], fill_opacities=[0.25], opacities=[_OPACITY])
         m["attachments"] = bq.Scatter(x=[], y=[], scales=sx_geo, marker="square", colors=["#555555"],
                                       default_size=60)
+        # ends: held ones (fixed, clamped, pinned, open) as a dark bar, lumped ones (a
+        # table of spring, mass, dashpot) as a ring; the tooltip names the condition
+        m["end_held"] = bq.Scatter(x=[], y=[], scales=sx_geo, marker="rectangle", colors=["#333333"],
+                                   default_size=260, names=[], display_names=True,
+                                   tooltip=bq.Tooltip(fields=["name"], labels=["end"]))
+        m["end_table"] = bq.Scatter(x=[], y=[], scales=sx_geo, marker="circle", colors=["#333333"],
+                                    fill=False, stroke="#333333", default_size=160, names=[],
+                                    display_names=True,
+                                    tooltip=bq.Tooltip(fields=["name"], labels=["end"]))
         m["drive"] = bq.Scatter(x=[0.0], y=[0.0], scales=sx_geo, marker="triangle-up",
                                 colors=[_RED], default_size=90)
         m["envelope"] = bq.Lines(x=[0.0], y=[[0.0], [0.0]], scales=sx_fld, colors=[_BLUE, _BLUE],
@@ -347,7 +362,8 @@ class Dashboard(W.VBox):
                                    tooltip=bq.Tooltip(fields=["x"], formats=[".4g"],
                                                       labels=["response at (m)"]))
         self._ax_field = bq.Axis(scale=self._ys_field, side="left", label="|u|")
-        field_fig = bq.Figure(marks=[m["segments"], m["attachments"], m["envelope"], m["shape"],
+        field_fig = bq.Figure(marks=[m["segments"], m["end_held"], m["end_table"], m["attachments"],
+                                     m["envelope"], m["shape"],
                                      m["drive"], m["response"]],
                               axes=[bq.Axis(scale=self._xs_line, label="position x (m)"), self._ax_field],
                               title="Response along the line",
@@ -467,9 +483,11 @@ class Dashboard(W.VBox):
             m[k].scales = {"x": xs, "y": self._ys_ph}
         for k in ("cursor", "phase_cursor"):
             m[k].scales = {"x": xs, "y": self._ys_unit}
-        self._ax_f.scale = xs
-        self._ax_f_phase.scale = xs
-        self._ax_db.scale = ys
+        fx, mag = c["frequency_axis"].value, c["magnitude"].value
+        self._ax_f, self._ax_f_phase = self._ax_freq["frf"][fx], self._ax_freq["phase"][fx]
+        self._ax_db = self._ax_mag[mag]
+        self.figures["frf"].axes = [self._ax_f, self._ax_db]
+        self.figures["phase"].axes = [self._ax_f_phase, self._ax_phase]
         self._selector.scale = xs
         self._draw_frf()
 
@@ -694,11 +712,10 @@ class Dashboard(W.VBox):
                 if old is None or old.shape != color.shape:
                     hm.row = modes_
                     hm.column = modes_
-                    # a label per mode crowds past ~15 modes: label every 2nd, 5th or 10th
-                    step = next(k for k in (1, 2, 5, 10, 20, 50) if n / k <= 15)
-                    ticks = modes_[step - 1::step] if step > 1 else modes_
-                    self._ax_col.tick_values = ticks
-                    self._ax_row.tick_values = ticks
+                    # a label per mode crowds past ~15 modes: an ordinal axis thins its
+                    # labels to num_ticks evenly spaced ones
+                    self._ax_col.num_ticks = min(n, 11)
+                    self._ax_row.num_ticks = min(n, 11)
                 hm.color = color
         bars = self.marks["peak_difference"]
         with bars.hold_sync():
@@ -727,6 +744,24 @@ class Dashboard(W.VBox):
                 m["segments"].x = xs
                 m["segments"].y = ys
                 m["segments"].colors = [_GREY] * len(h)
+            held, table = ([], []), ([], [])
+            for x_end, end in zip((0.0, float(line.length)), line.ends):
+                if isinstance(end, str):
+                    if end in _HELD:
+                        held[0].append(x_end)
+                        held[1].append(end)
+                    elif end != "free":          # duct ends: anechoic, flanged, unflanged
+                        table[0].append(x_end)
+                        table[1].append(end)
+                else:
+                    parts = [f"{k} {v:.3g}" for k, v in end.to_dict().items()]
+                    table[0].append(x_end)
+                    table[1].append(", ".join(parts) or "free")
+            for key, (xe, names) in (("end_held", held), ("end_table", table)):
+                with m[key].hold_sync():
+                    m[key].x = np.array(xe, dtype=float)
+                    m[key].y = np.zeros(len(xe))
+                    m[key].names = names
             with m["attachments"].hold_sync():
                 at = np.array([a.at for a in line.attachments], dtype=float)
                 m["attachments"].x = at
@@ -790,7 +825,8 @@ class Dashboard(W.VBox):
             return
         phi = 2 * math.pi * self.controls["animate"].value / (self.controls["animate"].max + 1)
         u = np.asarray(self.field)[0]
-        shape = _finite(np.real(u * np.exp(1j * phi)))
+        with np.errstate(invalid="ignore", over="ignore"):   # inf at an undamped resonance
+            shape = _finite(np.real(u * np.exp(1j * phi)))
         with self.marks["shape"].hold_sync():
             self.marks["shape"].x = self.field_x
             self.marks["shape"].y = shape

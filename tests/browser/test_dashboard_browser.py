@@ -221,14 +221,25 @@ def test_dashboard_in_jupyterlab(lab_server, page, tmp_path, record_property):
             "(d0) => document.querySelector('.dl-fig-frf svg path.line').getAttribute('d') !== d0",
             arg=exact0, timeout=REDRAW_TIMEOUT_MS)
 
-        # log frequency axis: the FRF path is redrawn on the new scale
+        # log frequency axis: the FRF path is redrawn on the new scale, and back
         before = frf.get_attribute("d")
+        ticks_js = "() => Array.from(document.querySelectorAll('.dl-fig-frf .tick text')).map(t => t.textContent).join('|')"
+        ticks0 = page.evaluate(ticks_js)
         page.locator(".dl-ctl-frequency_axis button", has_text="log").first.click()
         page.wait_for_function(
             "(d0) => document.querySelector('.dl-fig-frf svg path.line').getAttribute('d') !== d0",
             arg=before, timeout=REDRAW_TIMEOUT_MS)
-        page.locator(".dl-ctl-frequency_axis button", has_text="linear").first.click()
         _settle(page)
+        assert page.evaluate(ticks_js) != ticks0, "the axis kept its linear ticks on the log scale"
+        page.locator(".dl-ctl-frequency_axis button", has_text="linear").first.click()
+        # the linear axis (ticks and all) comes back
+        page.wait_for_function(f"() => ({ticks_js})() === {json.dumps(ticks0)}",
+                               timeout=REDRAW_TIMEOUT_MS)
+        _settle(page)
+        # the coupling heat map labels every 5th of its 40 modes, not all of them
+        labels = page.locator(".dl-fig-coupling .axis text, .dl-fig-coupling .tick text").all_inner_texts()
+        timings["coupling_tick_labels"] = len(labels)
+        assert len(labels) < 60, f"{len(labels)} labels crowd the 40-mode heat map"
 
         # figures as PNG: the browser downloads one image per figure
         with page.expect_download(timeout=REDRAW_TIMEOUT_MS) as dl_info:
@@ -293,5 +304,6 @@ def test_dashboard_in_jupyterlab(lab_server, page, tmp_path, record_property):
         except OSError:
             pass
         print("dampline browser timings:", text)
+        print("browser console errors:", page.console_errors[-10:])
         for k, v in timings.items():
             record_property(k, v)

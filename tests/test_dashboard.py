@@ -495,3 +495,29 @@ def test_imports_are_lazy():
     assert r.returncode == 0, r.stderr
     with pytest.raises(AttributeError):
         dl.NoSuchThing  # noqa: B018
+
+
+def test_record_button_writes_an_executed_notebook_and_page(tmp_path):
+    """The export's one-click record: an executed notebook of the current model whose
+    stored model hash is that of the dashboard's line, and an offline HTML page."""
+    import hashlib
+    import json
+
+    pytest.importorskip("nbclient")
+    from dampline import assets
+    try:
+        assets.fetch_assets()
+    except Exception as exc:                       # no registry: the page cannot be built
+        pytest.skip(f"npm assets unavailable: {exc}")
+    d = make("string")
+    d.controls["zeta"].value = 0.02
+    d.controls["export_folder"].value = str(tmp_path)
+    d.controls["export_record"].click()
+    assert "Wrote" in d.status.value, d.status.value
+    nbs = list(tmp_path.glob("*.ipynb"))
+    pages = list(tmp_path.glob("*.html"))
+    assert nbs and pages
+    nb = json.loads([p for p in nbs if "executed" in p.name or len(nbs) == 1][0].read_text())
+    want = hashlib.sha256(dl.dumps(d.line).encode()).hexdigest()
+    assert want in json.dumps(nb["metadata"]["dampline"]["record"])
+    assert want in pages[0].read_text()

@@ -1,10 +1,10 @@
-"""Run every benchmark: ``python -m benchmarks`` from the repository root."""
+"""Run the benchmark suite from the repository root:
+``python -m benchmarks [--quick] [--skip-mpmath] [--only NAME[,NAME]] [--json OUT] [--readme]``
+(see :mod:`benchmarks.suite`; the sweep case runs when ``bench_sweep.py`` is present)."""
 
-from . import bench_beam_modes, bench_exact_frf, bench_modal
+import sys
+
+from .suite import main
 
 if __name__ == "__main__":
-    bench_exact_frf.main()
-    print()
-    bench_beam_modes.main()
-    print()
-    bench_modal.main()
+    sys.exit(main())

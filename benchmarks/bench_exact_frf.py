@@ -10,12 +10,14 @@ the same run; the ratio is printed with the accuracy of each.
 
 from __future__ import annotations
 
+import statistics
+
 import numpy as np
 
 import dampline as dl
 from tests.fe_reference import build
 
-from ._common import machine_report, median_time
+from ._common import machine_report, median_time, peak_alloc_mib, row, timed_runs
 
 F_MAX = 20e3
 N_FREQ = 4000
@@ -49,7 +51,7 @@ def rel_err(H, ref):
     return float(np.max(np.abs(H - ref) / np.abs(ref)))
 
 
-def main() -> dict:
+def main(quick: bool = False) -> dict:
     print(machine_report())
     line, fe_segs, ends, atts, L = scenario()
     f = np.linspace(5.0, F_MAX, N_FREQ)
@@ -57,8 +59,12 @@ def main() -> dict:
     drive = atts[1]["at"]
     resp = [drive, atts[0]["at"], L]
 
-    H = np.asarray(dl.frf(line, f, drive_at=drive, response_at=resp))
-    t_dl = median_time(lambda: dl.frf(line, f, drive_at=drive, response_at=resp), repeats=7)
+    def run_dl():
+        return dl.frf(line, f, drive_at=drive, response_at=resp)
+
+    H = np.asarray(run_dl())
+    t_dl = median_time(run_dl, repeats=3 if quick else 7)
+    alloc = peak_alloc_mib(run_dl)
 
     # refine the FE mesh until it meets the target against the exact answer
     sub = f[::10]
@@ -74,7 +80,10 @@ def main() -> dict:
     epw, fe = chosen
     H_fe = fe.frf(f, drive, resp)
     err_fe = rel_err(H_fe, H)
-    t_fe = median_time(lambda: fe.frf(f, drive, resp), repeats=1)
+    # seconds per call: the first call is timed too, no warm-up
+    t_fe_all = timed_runs(lambda: fe.frf(f, drive, resp), repeats=1 if quick else 3,
+                          warmup=False)
+    t_fe = statistics.median(t_fe_all)
 
     # the exact solution against a much finer FE model (its own error ~ (epw/160)^4 smaller)
     fine = build(fe_segs, ends=ends, attachments=atts, elements_per_wavelength=160,
@@ -89,7 +98,18 @@ def main() -> dict:
     print(f"  scipy FE, {fe.n_dof} DOF ({epw} el/wavelength), one splu per frequency: "
           f"{t_fe * 1e3:8.1f} ms   (error {err_fe:.1e} against exact)")
     print(f"  ratio FE / dampline: {ratio:.0f}x   (target >= 50x)")
-    return {"t_dampline": t_dl, "t_fe": t_fe, "ratio": ratio, "err_fe": err_fe, "err_dl": err_dl}
+    return {"t_dampline": t_dl, "t_fe": t_fe, "ratio": ratio, "err_fe": err_fe, "err_dl": err_dl,
+            "n_dof_fe": fe.n_dof, "epw": epw, "alloc_mib": alloc}
+
+
+def rows(quick: bool = False, **_) -> list[dict]:
+    r = main(quick)
+    return [row("exact_axial", f"exact FRF, 10-segment axial line, {N_FREQ} f x 3 points",
+                r["t_dampline"], t_baseline=r["t_fe"],
+                baseline=f"sparse FE, {r['n_dof_fe']} DOF, splu per frequency",
+                ratio=r["ratio"], ratio_is="baseline / dampline", target=">= 50x",
+                met=r["ratio"] >= 50, alloc_mib=r["alloc_mib"],
+                notes=f"FE vs exact {r['err_fe']:.1e}; exact vs finer FE {r['err_dl']:.1e}")]
 
 
 if __name__ == "__main__":

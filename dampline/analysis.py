@@ -12,8 +12,8 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-import scipy.linalg
 
+from . import checks
 from .errors import ModelError
 from .model.line import Line
 from .solve.exact import check_position, check_request
@@ -35,9 +35,9 @@ class ModalTable:
     def __getitem__(self, name: str) -> np.ndarray:
         try:
             return self.columns[name]
-        except KeyError:
-            raise ModelError("column", name, "", f"unknown column (use {', '.join(self.columns)})") \
-                from None
+        except (KeyError, TypeError):
+            raise ModelError("column", name, "", f"unknown column (use {', '.join(self.columns)})"
+                             f"{checks.suggest(name, self.columns)}") from None
 
     def __len__(self) -> int:
         return len(self.columns["frequency"])
@@ -91,7 +91,7 @@ def _damping_ratios(mm: ModalModel):
     if not np.any(mm.C1):
         # hysteretic only: eigenvalues l = w_n^2 (1 + i eta) of M1^-1 K0; at resonance
         # such a mode behaves as zeta = eta / 2 (peak 1/eta, bandwidth eta f_n)
-        lam = scipy.linalg.eigvals(np.linalg.solve(mm.M1, mm.K0))
+        lam = np.linalg.eigvals(np.linalg.solve(mm.M1, mm.K0))
         lam = lam[np.argsort(lam.real)][-el.size:] if el.size else lam[:0]
         zeta[el] = 0.5 * lam.imag / lam.real
         fd[el] = np.sqrt(lam.real) / (2 * math.pi)
@@ -101,15 +101,21 @@ def _damping_ratios(mm: ModalModel):
     A[:N, N:] = np.eye(N)
     A[N:, :N] = -Minv @ mm.K0
     A[N:, N:] = -Minv @ mm.C1
-    s = scipy.linalg.eigvals(A)
-    s = s[s.imag > 0]              # one root of each oscillating pair
-    if s.size < el.size:
+    s = np.linalg.eigvals(A)
+    # one root of each oscillating pair; a root whose imaginary part is round-off
+    # (|Im| <= 1e-8 |s|: an overdamped motion, e.g. a stiff dashpot's local mode) is no
+    # mode's damped pole and must not be matched to one
+    s = s[s.imag > 1e-8 * np.abs(s)]
+    if s.size == 0 or el.size == 0:
         return None
-    order = np.argsort(np.abs(s))
-    s = s[order][-el.size:] if s.size > el.size else s[order]
-    s = s[np.argsort(np.abs(s))]
-    zeta[el] = -s.real / np.abs(s)
-    fd[el] = s.imag / (2 * math.pi)
+    # each elastic mode gets the pole nearest to it in log |s| / w_n, one-to-one
+    # (assignment problem, scipy's linear_sum_assignment)
+    cost = np.abs(np.log(np.abs(s)[None, :] / wn[el][:, None]))
+    from scipy.optimize import linear_sum_assignment    # loaded on use: import stays light
+    rows, cols = linear_sum_assignment(cost)
+    matched = el[rows]
+    zeta[matched] = -s[cols].real / np.abs(s[cols])
+    fd[matched] = s[cols].imag / (2 * math.pi)
     return zeta, fd, False
 
 
@@ -140,6 +146,13 @@ def _mode_damping(mm: ModalModel, eta_diag: np.ndarray):
     coupled = _damping_ratios(mm)
     if coupled is not None:
         zeta, fd, hysteretic = coupled
+        # a mode left without an oscillating pole (overdamped, or more modes than
+        # poles) keeps its decoupled estimate
+        gap = (mm.modes.omega > 0) & ~np.isfinite(zeta)
+        if gap.any():
+            zeta = zeta.copy()
+            zeta[gap] = eta_diag[gap] / 2.0
+            fd[gap] = mm.modes.frequencies[gap] * np.sqrt(np.clip(1.0 - zeta[gap] ** 2, 0.0, None))
     else:
         zeta = eta_diag / 2.0
         fd = mm.modes.frequencies * np.sqrt(np.clip(1.0 - zeta ** 2, 0.0, None))
@@ -161,6 +174,7 @@ def modal_table(line: Line, count: int | ModeSet = 10, *, drive_at: float | None
     hysteretic damping, with 2 zeta sqrt(1 - zeta^2) in place of eta for viscous)
     and ``peak_db`` (dB re 1). Rigid-body rows have frequency 0 and NaN damping.
     """
+    line = checks.solvable(line)
     ms = resolve_modes(line, count)
     mm = modal_model(line, ms)
     wn = ms.omega
@@ -235,6 +249,8 @@ def coupling(line: Line, count: int | ModeSet = 10, *, drive_at: float | None = 
     Drive and response default to the right end (the left one if the right is held).
     Each peak is resolved on its own fine grid (+-4 half-power bandwidths).
     """
+    line = checks.solvable(line)
+    points_per_peak = checks.whole("points_per_peak", points_per_peak, low=3, high=100_001)
     ms = resolve_modes(line, count)
     mm = modal_model(line, ms)
     B = mm.damping_matrix()

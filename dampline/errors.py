@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-__all__ = ["ModelError"]
+__all__ = ["ModelError", "ResonanceWarning"]
 
 
 class ModelError(ValueError):
@@ -26,3 +26,13 @@ class ModelError(ValueError):
         if reason:
             msg += f": {reason}"
         super().__init__(msg)
+
+
+class ResonanceWarning(UserWarning):
+    """A requested frequency sits on a natural frequency of a line with no damping at
+    all, where the response is infinite: those values are returned as ``inf``.
+
+    A ``UserWarning`` (not a ``RuntimeWarning``): it reports the physics of the model,
+    not a floating-point accident, and test suites that turn numerical runtime
+    warnings into errors should still see it as a warning.
+    """

@@ -59,14 +59,26 @@ class FRF:
         return np.degrees(np.angle(self.values))
 
     def db(self, reference: float = 1.0) -> np.ndarray:
-        """20 log10(|H| / reference); zeros give -inf (never NaN)."""
+        """20 log10(|H| / reference); zeros give -inf (never NaN). ``reference`` is a
+        positive level in the FRF's unit."""
+        from .checks import real
+        reference = real("reference", reference, self.unit, low=0.0, low_open=True)
         with np.errstate(divide="ignore"):
             return 20.0 * np.log10(np.abs(self.values) / reference)
 
     def peaks(self, column: int = 0, *, min_prominence_db: float = 3.0) -> Peaks:
         """Local maxima of |H| in one column, refined by a parabola through the
         three samples in dB, with the half-power (-3 dB) bandwidth read off the
-        sampled curve by linear interpolation."""
+        sampled curve by linear interpolation. Needs frequencies that rise."""
+        from .checks import ascending, real, whole
+        n_resp = self.values.shape[1]
+        if isinstance(column, (int, np.integer)) and not isinstance(column, bool) \
+                and -n_resp <= column < 0:
+            column += n_resp
+        column = whole("column", column, low=0, high=n_resp - 1)
+        min_prominence_db = real("min_prominence_db", min_prominence_db, "dB", low=0.0)
+        ascending(np.asarray(self.frequencies, float), "frequencies",
+                  "peaks are found along a rising sweep")
         f = np.asarray(self.frequencies, float)
         mag = np.abs(self.values[:, column])
         with np.errstate(divide="ignore"):

@@ -476,6 +476,33 @@ def test_coupling_ticks_do_not_crowd():
     assert d._ax_col.num_ticks == d._ax_row.num_ticks == 11
 
 
+def test_drive_and_response_arguments():
+    d = make("bending", drive_at=0.35, response_at=0.6)
+    assert d.drive_at == pytest.approx(0.35) and d.response_at == pytest.approx(0.6)
+    assert_curves_match(d)
+    with pytest.raises(dl.ModelError, match="response_at"):
+        make("bending", response_at=2.0)
+
+
+def test_sweep_view_inside_the_dashboard():
+    d = make("axial")
+    assert d.sweep_view is None                      # not built until opened
+    d._sweep_box.selected_index = 0
+    sv = d.sweep_view
+    assert sv is not None and sv.line == d.line and d.status.value == ""
+    sv.controls["path"].value = "segments.0.length"      # the mass at 0.8 m stays on the line
+    sv.controls["start"].value, sv.controls["stop"].value, sv.controls["count"].value = 0.5, 0.7, 5
+    sw = sv.run()
+    spec = d.line.to_dict()
+    spec["segments"][0]["length"] = 0.6
+    ref = dl.frf(dl.Line.from_dict(spec), sv.freqs, drive_at=d.drive_at, response_at=[d.response_at])
+    np.testing.assert_allclose(sw.frf[2, :, 0], np.asarray(ref)[:, 0], rtol=1e-9)
+    d.controls["eta"].value = 0.01                   # a new model: a new view on opening
+    d._sweep_box.selected_index = None
+    d._sweep_box.selected_index = 0
+    assert d.sweep_view is not sv and d.sweep_view.line == d.line
+
+
 def test_from_path(tmp_path):
     p = dl.save(dl.Line.from_dict(SPECS["string"]), tmp_path / "s.toml")
     d = dl.Dashboard(p, n_freq=N_FREQ, modes=N_MODES)

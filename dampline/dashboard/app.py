@@ -106,15 +106,19 @@ class Dashboard(W.VBox):
     """Interactive view of a damped line: FRF (exact and modal), phase, field along
     the line, modal table and damping coupling.
 
-    ``Dashboard(line_or_path, *, freqs_hz=None, n_freq=4000, n_points=200, modes=40)``.
+    ``Dashboard(line_or_path, *, freqs_hz=None, n_freq=4000, n_points=200, modes=40,
+    drive_at=None, response_at=None)`` (positions in m; by default a free end, and the
+    response where the drive is).
     ``figures``: bqplot figures ``frf``, ``phase``, ``field``, ``coupling``;
     ``controls``: widgets keyed by role or model path (``eta``, ``frequency``,
     ``segments.0.length``, ``attachments.0.mass``...); ``status``: HTML message area.
     """
 
     def __init__(self, line_or_path, *, freqs_hz=None, n_freq: int = 4000, n_points: int = 200,
-                 modes: int = 40, **kwargs):
+                 modes: int = 40, drive_at: float | None = None, response_at: float | None = None,
+                 **kwargs):
         super().__init__(**kwargs)
+        self._points0 = (drive_at, response_at)
         if isinstance(line_or_path, dl.Line):
             line = line_or_path
         else:
@@ -201,9 +205,21 @@ class Dashboard(W.VBox):
         c["modes"] = W.IntSlider(value=self.n_modes, min=1, max=self.n_modes, description="modes",
                                  continuous_update=False, style=st, layout=W.Layout(width="340px"))
         xd = self._default_drive(line)
+        given = {}
+        for key, x in zip(("drive_at", "response_at"), self._points0):
+            if x is not None:
+                try:
+                    x = float(x)
+                except (TypeError, ValueError):
+                    raise dl.ModelError(key, x, "m", "must be a position on the line") from None
+                if not (0.0 <= x <= L):
+                    raise dl.ModelError(key, x, "m", f"is off the line (0 to {L:g} m)")
+                given[key] = x
+        xr = given.get("response_at", given.get("drive_at", xd))
+        xd = given.get("drive_at", xd)
         c["drive_at"] = W.FloatSlider(value=xd, min=0.0, max=L, step=L / 1000, description="drive at (m)",
                                       readout_format=".4g", continuous_update=False, style=st, layout=W.Layout(width="340px"))
-        c["response_at"] = W.FloatSlider(value=xd, min=0.0, max=L, step=L / 1000,
+        c["response_at"] = W.FloatSlider(value=xr, min=0.0, max=L, step=L / 1000,
                                          description="response at (m)", readout_format=".4g",
                                          continuous_update=False, style=st, layout=W.Layout(width="340px"))
         f = self.freqs
@@ -410,7 +426,14 @@ class Dashboard(W.VBox):
         side = W.VBox([damping_box, points_box, model_box, exports])
         plots = W.VBox([self.figures["frf"], self.figures["phase"], self.figures["field"]])
         bottom = W.HBox([self.figures["coupling"], W.VBox([self.peak_figure, self.table])])
-        self.children = [title, self.status, W.HBox([side, plots]), bottom]
+        # parameter sweep: built when first opened (it keeps construction fast), and
+        # rebuilt on opening when the model has changed since
+        self.sweep_view = None
+        self._sweep_box = W.Accordion(children=[W.VBox([])], selected_index=None)
+        self._sweep_box.set_title(0, "Parameter sweep: peak level, resonances and FRF map "
+                                     "against one model value")
+        self._sweep_box.observe(self._on_sweep_open, names="selected_index")
+        self.children = [title, self.status, W.HBox([side, plots]), bottom, self._sweep_box]
 
     # ------------------------------------------------------------------ wiring
     def _connect(self) -> None:
@@ -469,6 +492,31 @@ class Dashboard(W.VBox):
     def _on_overlay(self, change) -> None:
         self.marks["modal"].visible = bool(change["new"])
         self.marks["phase_modal"].visible = bool(change["new"])
+
+    def _on_sweep_open(self, change) -> None:
+        if change["new"] is None:
+            return
+        self._guarded(self.open_sweep)
+
+    def open_sweep(self):
+        """The sweep view for the current model, drive and response (a
+        :class:`~dampline.dashboard.sweep_view.SweepView`), built on first use."""
+        from .sweep_view import SweepView
+        sv = self.sweep_view
+        if sv is None or sv.line != self.line or (sv.drive_at, sv.response_at) != (
+                self.drive_at, self.response_at):
+            opts = {}
+            method = "exact"
+            if self.line.damping.model == "modal":
+                method, opts = "modal", {"modes": self.n_modes}
+            sv = SweepView(self.line, drive_at=self.drive_at, response_at=self.response_at,
+                           freqs=np.linspace(self.freqs[0], self.freqs[-1], 2000),
+                           drive=self.drive, method=method, **opts)
+            self.sweep_view = sv
+            self._sweep_box.children = [sv]
+        if self._sweep_box.selected_index is None:
+            self._sweep_box.selected_index = 0
+        return sv
 
     def _on_axes(self, change) -> None:
         """Swap the magnitude (dB or log |H|) and frequency (linear or log) scales of the

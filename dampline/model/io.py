@@ -18,7 +18,9 @@ __all__ = ["load", "save", "dumps"]
 
 def load(path: str | os.PathLike) -> Line:
     """Read a model TOML file into a validated :class:`Line`."""
-    p = Path(path)
+    p = _path(path)
+    if p.is_dir():
+        raise ModelError("path", str(p), "", "is a folder, not a model file")
     try:
         text = p.read_text(encoding="utf-8")
     except OSError as exc:
@@ -40,7 +42,23 @@ def save(line: Line, path: str | os.PathLike) -> Path:
     flushed to disk, then renamed over it, so a crash never leaves half a model."""
     if not isinstance(line, Line):
         raise ModelError("line", type(line).__name__, "", "dl.save needs a dampline.Line")
-    return write_text_atomic(path, dumps(line))
+    p = _path(path)
+    if p.is_dir():
+        raise ModelError("path", str(p), "", "is a folder; give a file name such as "
+                         f"{str(p / 'model.toml')!r}")
+    folder = p.parent if str(p.parent) else Path(".")
+    if not folder.is_dir():
+        raise ModelError("path", str(p), "", f"its folder {str(folder)!r} does not exist")
+    return write_text_atomic(p, dumps(line))
+
+
+def _path(path) -> Path:
+    """A file path from text or a path object (not None, not a number)."""
+    if isinstance(path, bytes):
+        path = os.fsdecode(path)
+    if not isinstance(path, (str, os.PathLike)) or not str(path):
+        raise ModelError("path", path, "", "must be a file path (text or pathlib.Path)")
+    return Path(path)
 
 
 def write_text_atomic(path: str | os.PathLike, text: str) -> Path:

@@ -99,6 +99,20 @@ def unit_of(key: str, kind: str = "axial") -> str:
     return units.get(key.split(".")[-1].split("[")[0], "")
 
 
+def _suggest(value: Any, choices) -> str:
+    """'; did you mean ...?' for a misspelt word (difflib; see dampline.checks.suggest)."""
+    from ..checks import suggest
+    return suggest(value, choices)
+
+
+#: nonzero SI magnitudes a model value may take: wider than any real part, narrow enough
+#: that products of a few of them (E I, w^2 m, S / h^3) stay far from overflow
+MAGNITUDE = (1.0e-30, 1.0e30)
+#: the largest loss factor accepted (no engineering material comes near it; a larger
+#: number is most likely a percentage)
+ETA_MAX = 10.0
+
+
 def _number(key: str, value: Any, kind: str, *, positive: bool = True,
             allow_zero: bool = False) -> float:
     unit = unit_of(key, kind)
@@ -111,13 +125,25 @@ def _number(key: str, value: Any, kind: str, *, positive: bool = True,
                 raise TypeError
         except TypeError:
             raise ModelError(key, value, unit, "must be a real number") from None
-    v = float(value)
+    try:
+        v = float(value)
+    except OverflowError:
+        raise ModelError(key, value, unit, "is too large a number") from None
     if not math.isfinite(v):
         raise ModelError(key, value, unit, "must be finite")
     if positive and not allow_zero and v <= 0.0:
         raise ModelError(key, value, unit, "must be positive")
     if allow_zero and v < 0.0:
         raise ModelError(key, value, unit, "must not be negative")
+    # a tiny value where zero is allowed (a lumped element, a loss factor) is as good as
+    # zero; a tiny length or modulus is not
+    low = MAGNITUDE[0] if positive and not allow_zero else 0.0
+    if (positive or allow_zero) and not low <= v <= MAGNITUDE[1]:
+        raise ModelError(key, value, unit, f"is outside the range {MAGNITUDE[0]:g} to "
+                         f"{MAGNITUDE[1]:g} (SI units) this solver accepts")
+    if key.split(".")[-1] == "eta" and v > ETA_MAX:
+        raise ModelError(key, value, unit, f"must be at most {ETA_MAX:g} (a loss factor, not "
+                         "a percentage)")
     return v
 
 
@@ -127,7 +153,7 @@ def _check_keys(where: str, given: Mapping[str, Any], allowed: tuple[str, ...], 
     for k in given:
         if k not in allowed:
             near = [a for a in allowed if a.lower() == str(k).lower()]
-            hint = f"; did you mean {near[0]!r}?" if near else ""
+            hint = _suggest(k, allowed)
             # a case slip ("e" for "E") still shows the unit the value was meant in
             raise ModelError(f"{where}.{k}", given[k], unit_of(near[0] if near else str(k), kind),
                              f"unknown key for kind {kind!r} (allowed: {', '.join(allowed)}){hint}")
@@ -331,8 +357,8 @@ class Line:
     # ------------------------------------------------------------ validation
     def __post_init__(self) -> None:
         kind = self.kind
-        if kind not in KINDS:
-            raise ModelError("kind", kind, "", f"unknown kind (use one of {', '.join(KINDS)})")
+        if not isinstance(kind, str) or kind not in KINDS:
+            self._raise_kind(kind)
         object.__setattr__(self, "segments", tuple(self.segments))
         object.__setattr__(self, "attachments", tuple(self.attachments))
         if self.ends is None:
@@ -342,6 +368,16 @@ class Line:
             raise ModelError("segments", [], "", "a line needs at least one segment")
         for i, seg in enumerate(self.segments):
             self._check_segment(i, seg)
+        total = self.length
+        for i, seg in enumerate(self.segments):
+            # build_mesh merges points within END_SNAP of the length: such a segment would
+            # silently vanish from the solution
+            if seg.length <= END_SNAP * total:
+                raise ModelError(f"segments[{i}].length", seg.length, "m",
+                                 f"is shorter than {END_SNAP:g} of the line's length "
+                                 f"({total:g} m): points that close are one point to the "
+                                 "solver, so the segment would vanish; merge it with a "
+                                 "neighbour")
         if len(self.ends) != 2:
             raise ModelError("ends", self.ends, "", "needs a left and a right end")
         for side, end in zip(("left", "right"), self.ends):
@@ -397,10 +433,11 @@ class Line:
         key = f"ends.{side}"
         if isinstance(end, str):
             if end not in END_WORDS[self.kind]:
-                raise ModelError(key, end, "", f"not an end of kind {self.kind!r} "
+                raise ModelError(key, end, "", (f"not an end of kind {self.kind!r} "
                                  f"(use {', '.join(END_WORDS[self.kind])} or a table)"
                                  if self.kind != "duct" else
                                  f"not a duct end (use {', '.join(END_WORDS['duct'])})")
+                                 + _suggest(end, END_WORDS[self.kind]))
             return
         if not isinstance(end, EndTable):
             raise ModelError(key, end, "", "must be an end word or a table of "
@@ -454,7 +491,8 @@ class Line:
             raise ModelError("damping", d, "", "must be a Damping table")
         if d.model not in DAMPING_MODELS:
             raise ModelError("damping.model", d.model, "",
-                             f"unknown damping model (use one of {', '.join(DAMPING_MODELS)})")
+                             f"unknown damping model (use one of {', '.join(DAMPING_MODELS)})"
+                             f"{_suggest(d.model, DAMPING_MODELS)}")
         for k in ("eta", "zeta", "alpha", "beta", "pairs"):
             v = getattr(d, k)
             if v is None or (k in ("alpha", "beta") and d.pairs is not None):
@@ -541,6 +579,9 @@ class Line:
             if kind == "duct":
                 values.setdefault("rho", AIR["rho"])
                 values.setdefault("c", AIR["c"])
+            if "length" not in values:
+                raise ModelError(f"segments[{i}].length", None, "m",
+                                 f"is required for kind {kind!r}")
             section = None
             if "section" in values:
                 section = Section.from_dict(values.pop("section"), f"segments[{i}].section")
@@ -592,7 +633,8 @@ class Line:
 
     @staticmethod
     def _raise_kind(kind: str) -> None:
-        raise ModelError("kind", kind, "", f"unknown kind (use one of {', '.join(KINDS)})")
+        raise ModelError("kind", kind, "", f"unknown kind (use one of {', '.join(KINDS)})"
+                         f"{_suggest(kind, KINDS)}")
 
     @staticmethod
     def _end_from(side: str, raw: Any, kind: str) -> End:
@@ -619,7 +661,8 @@ class Line:
         model = raw.get("model", "none")
         if model not in DAMPING_MODELS:
             raise ModelError("damping.model", model, "",
-                             f"unknown damping model (use one of {', '.join(DAMPING_MODELS)})")
+                             f"unknown damping model (use one of {', '.join(DAMPING_MODELS)})"
+                             f"{_suggest(model, DAMPING_MODELS)}")
         vals: dict[str, Any] = {"model": model}
         for k in ("eta", "alpha", "beta"):
             if k in raw:

@@ -36,17 +36,21 @@ class Section:
     dims: tuple[tuple[str, float], ...]
 
     def __post_init__(self) -> None:
-        if self.shape not in SHAPES:
+        from ..checks import suggest
+        if not isinstance(self.shape, str) or self.shape not in SHAPES:
             raise ModelError("section.shape", self.shape, "",
-                             f"unknown section (use one of {', '.join(SHAPES)})")
+                             f"unknown section (use one of {', '.join(SHAPES)})"
+                             f"{suggest(self.shape, SHAPES)}")
         d = dict(self.dims)
-        for k in SHAPES[self.shape]:
-            if k not in d:
-                raise ModelError(f"section.{k}", None, "m", f"is required for a {self.shape}")
+        # a misspelt dimension is named as such before the one it was meant for is missed
         for k, v in d.items():
             if k not in SHAPES[self.shape]:
                 raise ModelError(f"section.{k}", v, "m", f"is not a dimension of a {self.shape} "
-                                 f"(use {', '.join(SHAPES[self.shape])})")
+                                 f"(use {', '.join(SHAPES[self.shape])})"
+                                 f"{suggest(k, SHAPES[self.shape])}")
+        for k in SHAPES[self.shape]:
+            if k not in d:
+                raise ModelError(f"section.{k}", None, "m", f"is required for a {self.shape}")
             if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) \
                     or v <= 0:
                 raise ModelError(f"section.{k}", v, "m", "must be a positive finite length")

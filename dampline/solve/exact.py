@@ -15,15 +15,16 @@ from typing import Literal
 
 import numpy as np
 
-from ..errors import ModelError
+from .. import checks
+from ..errors import ModelError, ResonanceWarning
 from ..families import FAMILIES
 from ..model.line import END_SNAP, Line
 from ..results import FRF
-from .banded import tridiagonal_solve
-from . import beam
-from .mesh import (Mesh, assemble, assemble_tridiagonal, free_dofs, held_dofs,
-                   interior_field, interior_weights, mesh_avoiding_poles, piece_stiffness,
-                   piece_wavenumbers)
+from .banded import banded_solve_inplace, tridiagonal_solve
+from . import beam, resonance
+from .mesh import (BENDING_BAND, Mesh, absorber_ratio, assemble, assemble_banded,
+                   assemble_tridiagonal, free_dofs, held_dofs, interior_field,
+                   interior_weights, mesh_avoiding_poles, piece_stiffness, piece_wavenumbers)
 
 __all__ = ["frf", "Drive", "Quantity"]
 
@@ -99,24 +100,21 @@ def check_request(line: Line, drive: str, quantity: str | None, drive_at) -> tup
         raise ModelError("drive", drive, "", f"a moment drives bending lines; kind {line.kind!r} "
                          f"takes {', '.join(drives)}")
     if drive not in drives:
-        raise ModelError("drive", drive, "", f"kind {line.kind!r} takes {', '.join(drives)}")
+        raise ModelError("drive", drive, "", f"kind {line.kind!r} takes {', '.join(drives)}"
+                         f"{checks.suggest(drive, drives)}")
     quantities = _QUANTITIES.get(line.kind, _STRUCT_QUANTITIES)
     if quantity is None:
         quantity = "pressure" if duct else "receptance"
     if quantity not in quantities:
         raise ModelError("quantity", quantity, "", f"kind {line.kind!r} gives "
-                         f"{', '.join(quantities)}")
+                         f"{', '.join(quantities)}{checks.suggest(quantity, quantities)}")
     if quantity == "stress":
         for i, seg in enumerate(line.segments):
             if seg.fibre is None:
                 raise ModelError(f"segments[{i}].section", None, "",
                                  "bending stress needs the outer-fibre distance: give the "
                                  "segment a section (circle, tube or rectangle)")
-    try:
-        xd = float(drive_at)
-    except (TypeError, ValueError):
-        raise ModelError("drive_at", drive_at, "m", "must be one position") from None
-    xd = float(check_position(line, "drive_at", xd)[0])
+    xd = checks.position(line, "drive_at", drive_at)
     side = None
     L = line.length
     if drive == "velocity":
@@ -141,8 +139,9 @@ def by_frequency_chunks(fn, f: np.ndarray, width: int) -> np.ndarray:
     """fn(f_chunk) -> (len(f_chunk), width) complex, evaluated over chunks of ``f`` and
     written into one (len(f), width) array (a loop over chunks, not frequencies)."""
     step = max(64, CHUNK_ENTRIES // max(int(width), 1))
-    if f.size <= step:
+    if f.size <= 2 * step:          # up to twice the budget: one piece, no copy
         return fn(f)
+    step = -(-f.size // -(-f.size // step))        # equal chunks, none a sliver
     out = None
     for a in range(0, f.size, step):
         part = fn(f[a:a + step])
@@ -160,7 +159,9 @@ def frf(line: Line, freqs_hz, drive_at: float = 0.0, response_at=(0.0,), drive: 
     ----------
     line : Line
     freqs_hz : array_like
-        Frequencies (Hz), positive and finite.
+        Frequencies (Hz), finite and not negative, in any order (the rows follow it).
+        0 Hz only where the static response is finite (a held line driven by a
+        force, moment or volume-velocity source; see :mod:`dampline.checks`).
     drive_at : float
         Drive position (m from the left end); for ``drive="velocity"`` an end.
     response_at : float or sequence of float
@@ -179,22 +180,32 @@ def frf(line: Line, freqs_hz, drive_at: float = 0.0, response_at=(0.0,), drive: 
     FRF
         ``np.asarray`` of it is complex, shape (n_freq, n_resp); e^{+i w t}.
     """
-    if not isinstance(line, Line):
-        raise ModelError("line", type(line).__name__, "", "needs a dampline.Line")
-    if method not in ("exact", "modal"):
-        raise ModelError("method", method, "", "use 'exact' or 'modal'")
-    f = check_frequencies(freqs_hz)
+    line = checks.solvable(line)
+    method = checks.word("method", method, ("exact", "modal"))
     drive, quantity, xd, side = check_request(line, drive, quantity, drive_at)
-    xr = check_position(line, "response_at", response_at)
+    xr = checks.positions(line, "response_at", response_at)
+    # f as given (any order); f_solve and factor differ from it only below a held
+    # line's static limit (0 Hz included), see dampline.checks.frequencies
+    f, f_solve, factor = checks.frequencies(line, freqs_hz, drive=drive, quantity=quantity,
+                                            method=method, side=side)
     if method == "modal":
-        from .modal import modal_frf
+        from .modal import modal_frf, resolve_modes
         allowed = ("modes", "coupling", "residual")
         for key in options:
             if key not in allowed:
                 raise ModelError(key, options[key], "", "unknown option for method 'modal' "
-                                 f"(use {', '.join(allowed)})")
-        values = modal_frf(line, f, xd, xr, drive, quantity, options.get("modes"),
-                           options.get("coupling", "full"), options.get("residual", True))
+                                 f"(use {', '.join(allowed)}){checks.suggest(key, allowed)}")
+        coupling = checks.word("coupling", options.get("coupling", "full"), ("full", "diagonal"))
+        ms = options.get("modes")
+        if drive != "velocity":
+            ms = resolve_modes(line, ms)
+
+        def run(fc):
+            return modal_frf(line, fc, xd, xr, drive, quantity, ms, coupling,
+                             options.get("residual", True))
+
+        values = checks.rescale(resonance.modal_response(
+            line, getattr(ms, "frequencies", ()), f_solve, run), factor)
         return FRF(frequencies=f, values=values, quantity=quantity,
                    unit=quantity_unit(line.kind, quantity, drive), drive=drive, drive_at=xd,
                    response_at=xr, method="modal", kind=line.kind)
@@ -204,8 +215,12 @@ def frf(line: Line, freqs_hz, drive_at: float = 0.0, response_at=(0.0,), drive: 
     if line.damping.model == "modal":
         raise ModelError("damping.model", "modal", "", "modal damping (zeta per mode) has no "
                          "exact distributed form; use method='modal'")
-    values = by_frequency_chunks(lambda fc: _exact(line, fc, xd, xr, drive, quantity, side),
-                                 f, xr.size + 16)
+
+    def run(fc):
+        return by_frequency_chunks(lambda c: _exact(line, c, xd, xr, drive, quantity, side),
+                                   fc, xr.size + 16)
+
+    values = checks.rescale(resonance.exact_response(line, f_solve, side, run), factor)
     return FRF(frequencies=f, values=values, quantity=quantity,
                unit=quantity_unit(line.kind, quantity, drive), drive=drive, drive_at=xd,
                response_at=xr, method="exact", kind=line.kind)
@@ -231,7 +246,7 @@ def _exact(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, qua
     else:
         amp = 1j * omega if drive == "volume_velocity" else np.ones(nf)   # duct: i w Q
         particular = _point_load(mesh, omega, xd, 1 if drive == "moment" else 0, amp, rhs)
-    solve = _solve_second_order if mesh.dpn == 1 else _solve_dense
+    solve = _solve_second_order if mesh.dpn == 1 else _solve_banded
     U, S, k = solve(mesh, omega, rhs, prescribed, replaced)
     bad = ~np.isfinite(U).all(axis=1)
     if bad.any():
@@ -239,7 +254,7 @@ def _exact(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, qua
         # the physics is infinite there, and we say so
         U[bad] = complex(np.inf, np.inf)
         warnings.warn(f"undamped resonance exactly at {f[bad][:5].tolist()} Hz: the response "
-                      "there is infinite (returned as inf)", RuntimeWarning, stacklevel=3)
+                      "there is infinite (returned as inf)", ResonanceWarning, stacklevel=3)
     return _response(mesh, omega, S, k, U, xr, quantity, particular)
 
 
@@ -337,6 +352,73 @@ def _solve_dense(mesh: Mesh, omega, rhs, prescribed, replaced):
         S_all.append(S)
         k_all.append(k)
     return U, np.concatenate(S_all), np.concatenate(k_all)
+
+
+#: complex entries per band block (n_line_dofs x band width x block of frequencies):
+#: bounds the work array (32 MB); larger blocks cost fewer Python steps per frequency
+_BAND_ENTRIES = 2_000_000
+
+
+def _solve_banded(mesh: Mesh, omega, rhs, prescribed, replaced):
+    """Bending path: the node DOFs' band (kl = ku = 3, absorbers condensed onto their
+    node), solved by batched banded elimination with partial pivoting
+    (:func:`dampline.solve.banded.banded_solve_inplace`, LAPACK gbtrf/gbtrs) in blocks of
+    frequencies. Held and imposed DOFs keep their place as an identity row and column
+    (u = 0, the imposed value moved to the right-hand side first): exactly the
+    elimination of the system without them, since a zero column never wins a pivot
+    search and a zero row never changes another. Frequencies where it gives no finite
+    answer (an exactly singular system, or an undamped absorber exactly at its own
+    frequency, where the condensed stiffness divides by zero) are solved again by the
+    dense path, which keeps the absorber's DOF."""
+    nf, n, kb = omega.size, mesh.n_line_dofs, BENDING_BAND
+    U = np.zeros((nf, mesh.n_dof), dtype=complex)
+    fixed = held_dofs(mesh, replaced)
+    if prescribed is not None:
+        fixed = fixed + [prescribed[0]]
+    S = k = None
+    block = max(64, _BAND_ENTRIES // (n * (3 * kb + 1)))
+    # the band's 2x2-block pattern (node q's two rows reach the DOFs of nodes q -+ 1),
+    # less the held DOFs: their rows and columns hold only the identity's 1
+    node0 = 2 * (np.arange(n) // 2)
+    first, last = np.maximum(node0 - 2, 0), np.minimum(node0 + 3, n - 1)
+    for i in range(n):
+        if i in fixed:
+            first[i] = last[i] = i
+            continue
+        while first[i] in fixed:
+            first[i] += 1
+        while last[i] in fixed:
+            last[i] -= 1
+    for a in range(0, nf, block):
+        sl = slice(a, a + block)
+        work, Sb, kbk = assemble_banded(mesh, omega[sl], replaced=replaced)
+        if S is None:
+            S = np.empty((nf,) + Sb.shape[1:], dtype=Sb.dtype)
+            k = np.empty((nf,) + kbk.shape[1:], dtype=kbk.dtype)
+        S[sl], k[sl] = Sb, kbk
+        b = np.array(rhs[sl, :n].T, order="C")
+        if prescribed is not None:
+            dof, value = prescribed
+            for i in range(max(0, dof - kb), min(n, dof + kb + 1)):
+                b[i] -= work[i, dof - i + kb] * value[sl]
+        for h in fixed:
+            work[h] = 0.0
+            for i in range(max(0, h - kb), min(n, h + kb + 1)):
+                work[i, h - i + kb] = 0.0
+            work[h, kb] = 1.0
+            b[h] = 0.0
+        U[sl, :n] = banded_solve_inplace(work, b, kb, kb, first=first, last=last).T
+    if prescribed is not None:
+        U[:, prescribed[0]] = prescribed[1]
+    if mesh.absorbers:
+        nodes = [2 * node for node, _ab in mesh.absorbers]
+        with np.errstate(all="ignore"):
+            U[:, n:] = absorber_ratio(mesh, omega) * U[:, nodes]
+    bad = np.flatnonzero(~np.isfinite(U).all(axis=1))
+    if bad.size:
+        pre = None if prescribed is None else (prescribed[0], prescribed[1][bad])
+        U[bad] = _solve_dense(mesh, omega[bad], rhs[bad], pre, replaced)[0]
+    return U, S, k
 
 
 def _dense_solve(A: np.ndarray, b: np.ndarray) -> np.ndarray:

@@ -23,6 +23,7 @@ split pieces.
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, field
 
@@ -30,6 +31,7 @@ import numpy as np
 
 from ..families import radiation_end_correction, segment_coefficients, static_coefficients
 from . import beam
+from .banded import band_workspace
 from ..model.line import AIR, END_SNAP, Absorber, EndTable, Line
 
 GOLDEN = 0.5 * (math.sqrt(5.0) - 1.0)
@@ -312,6 +314,66 @@ def assemble_tridiagonal(mesh: Mesh, omega: np.ndarray, *, replaced: tuple[bool,
     return diag, k12, S, k
 
 
+#: sub- and super-diagonals of a bending line's node DOFs (w, theta per node, in node
+#: order): a piece couples the four DOFs of its two nodes
+BENDING_BAND = 3
+
+
+def absorber_ratio(mesh: Mesh, omega: np.ndarray) -> np.ndarray:
+    """(n_freq, n_absorber) ratio u_absorber / u_node = s / (s + z) of each absorber
+    mass's motion to its node's (no force acts on the mass), s = k + i w c, z = -w^2 m."""
+    d = mesh.line.damping
+    out = np.empty((np.size(omega), len(mesh.absorbers)), dtype=complex)
+    for j, (_node, ab) in enumerate(mesh.absorbers):
+        s = _lumped(omega, 0.0, ab.stiffness, ab.damping, d, True)
+        z = _lumped(omega, ab.mass, 0.0, 0.0, d, True)
+        with np.errstate(all="ignore"):
+            out[:, j] = s / (s + z)
+    return out
+
+
+def assemble_banded(mesh: Mesh, omega: np.ndarray, *, replaced: tuple[bool, bool] = (False, False)
+                    ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Damped dynamic stiffness of the node DOFs of a bending line in band storage, with
+    the pieces' (S, k) (n_freq, n_piece) for the interior.
+
+    The band is the row-oriented, frequency-last layout of
+    :func:`dampline.solve.banded.band_workspace` with kl = ku = :data:`BENDING_BAND`:
+    ``work[i, c - i + 3, f] = K[f, i, c]``, shape (n_line_dofs, 10, n_freq), written
+    straight from the 4x4 piece matrices (no dense n x n array). Absorbers are condensed
+    exactly onto their node's displacement: with s = k + i w c the spring-dashpot and
+    z = -w^2 m the mass term, the node sees s z / (s + z). Held DOFs are left in (see
+    :func:`held_dofs`).
+    """
+    omega = np.asarray(omega, dtype=float)
+    nf, n, npc = omega.size, mesh.n_line_dofs, mesh.piece_h.size
+    kb = BENDING_BAND
+    S, k = piece_wavenumbers(mesh, omega, True)
+    Ke = beam.piece_entries(S.T, k.T, mesh.piece_h[:, None])      # 4 x 4 of (n_piece, nf)
+    work = band_workspace(n, kb, kb, nf)
+    # entry (a, b) of piece p sits at row 2p + a, column 2p + b: place b - a + kb. Only
+    # a node's own 2x2 block takes two pieces (the right-node block of piece p - 1 and
+    # the left-node block of piece p): the others are written, those two added
+    for a in range(4):
+        rows = slice(a, a + 2 * npc, 2)
+        for b in range(4):
+            if a < 2 or b < 2:
+                work[rows, b - a + kb] = Ke[a][b]
+    for a in (2, 3):
+        rows = slice(a, a + 2 * npc, 2)
+        for b in (2, 3):
+            work[rows, b - a + kb] += Ke[a][b]
+    for dof, kk in _node_terms(mesh, omega, True, replaced):
+        work[dof, kb] += kk
+    d = mesh.line.damping
+    for node, ab in mesh.absorbers:
+        s = _lumped(omega, 0.0, ab.stiffness, ab.damping, d, True)
+        z = _lumped(omega, ab.mass, 0.0, 0.0, d, True)
+        with np.errstate(all="ignore"):
+            work[2 * node, kb] += s * z / (s + z)
+    return work, S, k
+
+
 # ------------------------------------------------------------ interior field
 def interior_weights(k, h, xi, order: int):
     """Exact interior solution of a second-order piece: u(xi) = A u_a + B u_b (or u'
@@ -374,15 +436,18 @@ def static_field(mesh: Mesh, U: np.ndarray, p: np.ndarray, xi: np.ndarray,
     return N[0] * w1 + N[1] * t1 + N[2] * w2 + N[3] * t2
 
 
+@functools.lru_cache(maxsize=256)
 def _cc_bending_roots(n: int) -> np.ndarray:
     """First n roots of cos(l) cosh(l) = 1 (l > 0): clamped-clamped beam (Blevins),
-    by Newton on cos(l) - sech(l) from the asymptote (2j + 1) pi / 2."""
+    by Newton on cos(l) - sech(l) from the asymptote (2j + 1) pi / 2. Cached (read-only):
+    every piece of every trial mesh asks for a handful of the same few counts."""
     lam = (2.0 * np.arange(1, n + 1) + 1.0) * math.pi / 2.0
     for _ in range(6):
         sech = 1.0 / np.cosh(np.minimum(lam, 700.0))
         f = np.cos(lam) - sech
         df = -np.sin(lam) + sech * np.tanh(np.minimum(lam, 700.0))
         lam = lam - f / df
+    lam.flags.writeable = False
     return lam
 
 

@@ -38,7 +38,6 @@ from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
-import scipy.linalg
 
 from ..errors import ModelError
 from ..families import radiation_end_correction, segment_coefficients, segment_eta, \
@@ -242,7 +241,10 @@ def modal_model(line: Line, ms: ModeSet) -> ModalModel:
             v = _points(ms, att.at)
             mech.append(Mechanism(f"dashpot at {att.at:g} m", C1=att.dashpot * np.outer(v, v),
                                   rank1=((att.dashpot, v),)))
-    for j, (node, ab) in enumerate(ms.mesh.absorbers):
+    # the absorbers' dashpots of THIS line (the ModeSet may come from the same line with
+    # other damping values); the absorbers come in attachment order in both
+    current = [a.absorber for a in line.attachments if a.absorber is not None]
+    for j, ((node, _ab0), ab) in enumerate(zip(ms.mesh.absorbers, current)):
         if ab.damping:
             v = ms.absorber_amplitudes[:, j] - ms.nodal[:, ms.mesh.dpn * node]
             mech.append(Mechanism(f"absorber at {ms.mesh.x[node]:g} m",
@@ -348,7 +350,7 @@ def _state_space(mm: ModalModel):
     if not np.any(mm.C1):
         # D = M1 (M1^-1 K0 - w^2): diagonalise M1^-1 K0 = V L V^-1; with i w = s,
         # (L + s^2)^-1 keeps the pole form in w^2
-        lam, V = scipy.linalg.eig(Minv @ mm.K0)
+        lam, V = np.linalg.eig(Minv @ mm.K0)
         if np.linalg.cond(V) > 1e10:
             return None
         return ("k", lam, V, np.linalg.solve(V, Minv))
@@ -356,7 +358,7 @@ def _state_space(mm: ModalModel):
     A[:N, N:] = np.eye(N)
     A[N:, :N] = -Minv @ mm.K0
     A[N:, N:] = -Minv @ mm.C1
-    lam, V = scipy.linalg.eig(A)
+    lam, V = np.linalg.eig(A)
     if np.linalg.cond(V) > 1e10:
         return None
     Vi = np.linalg.inv(V)
@@ -390,7 +392,7 @@ def _low_rank(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, phi_r: np.ndarra
         Vt_P = None
     elif np.abs(np.diag(C_diag)).max(initial=0.0) == 0.0:
         Minv = np.linalg.inv(mm.M1)
-        lam, V = scipy.linalg.eig(Minv @ mm.K0)
+        lam, V = np.linalg.eig(Minv @ mm.K0)
         if np.linalg.cond(V) > 1e10:
             return None
         Vi = np.linalg.solve(V, Minv)
@@ -515,9 +517,20 @@ def _residual_shape(ms: ModeSet, line: Line, xd: float, drive: str) -> dict:
     U, S, k = solve(mesh, w0, rhs, None, (False, False))
     share = _drive_vector(ms, xd, drive) / (wn ** 2 - w0[0] ** 2)
 
+    memo: dict = {}
+
     def r_at(x, o):
+        # memoised: every damping change re-reads the same points (read-only results)
+        x = np.asarray(x, dtype=float)
+        key = (x.tobytes(), o) if x.size <= 4096 else None
+        if key is not None and key in memo:
+            return memo[key]
         p, xi = mesh.locate(x)
-        return interior_field(mesh, S, k, U, p, xi, o)[0].real - ms.shape(x, derivative=o) @ share
+        val = interior_field(mesh, S, k, U, p, xi, o)[0].real - ms.shape(x, derivative=o) @ share
+        if key is not None and len(memo) < 256:
+            val.setflags(write=False)
+            memo[key] = val
+        return val
 
     # energies of the residual shape, segment by segment (Gauss-Legendre per piece)
     dorder = 2 if mesh.dpn == 2 else 1

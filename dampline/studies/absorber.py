@@ -6,11 +6,11 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.optimize
 
+from .. import checks
 from ..errors import ModelError
 from ..model.line import Absorber, Attachment, Line
-from ..solve.exact import check_position, frf
+from ..solve.exact import frf
 from ..solve.modes import modes as compute_modes
 
 
@@ -50,11 +50,21 @@ def tune_absorber(line: Line, mode: int, mass: float, at: float, *, drive_at: fl
     band's peak |H| over the absorber's stiffness and damping on the exact model
     (Nelder-Mead in log scale). Drive and response default to ``at``; the band to
     f_n (1 -+ 3 sqrt(mu))."""
+    line = checks.solvable(line)
     if isinstance(mode, bool) or not isinstance(mode, (int, np.integer)) or mode < 1:
         raise ModelError("mode", mode, "", "must be a mode number (1 = lowest)")
-    if not (isinstance(mass, (int, float)) and mass > 0 and math.isfinite(mass)):
-        raise ModelError("mass", mass, "kg", "must be a positive mass")
-    xa = float(check_position(line, "at", at)[0])
+    mass = checks.real("mass", mass, "kg", low=0.0, low_open=True)
+    n_freq = checks.whole("n_freq", n_freq, low=3, high=1_000_000)
+    if band_hz is not None:
+        try:
+            lo, hi = (checks.real("band_hz", b, "Hz", low=0.0, low_open=True) for b in band_hz)
+        except (TypeError, ValueError) as exc:
+            if isinstance(exc, ModelError):
+                raise
+            raise ModelError("band_hz", band_hz, "Hz", "must be (low, high)") from None
+        if not lo < hi:
+            raise ModelError("band_hz", band_hz, "Hz", "must be (low, high) with low < high")
+    xa = checks.position(line, "at", at)
     xd = xa if drive_at is None else drive_at
     xr = xa if response_at is None else response_at
     ms = compute_modes(line, int(mode))
@@ -84,6 +94,7 @@ def tune_absorber(line: Line, mode: int, mass: float, at: float, *, drive_at: fl
         k, c = start.stiffness * math.exp(p[0]), start.damping * math.exp(p[1])
         return math.log(peak(with_absorber(Absorber(mass, k, c))))
 
+    import scipy.optimize                      # loaded on use: import dampline stays light
     res = scipy.optimize.minimize(cost, x0=[0.0, 0.0], method="Nelder-Mead",
                                   options={"xatol": 1e-4, "fatol": 1e-6, "maxiter": 400})
     tuned = Absorber(mass, start.stiffness * math.exp(res.x[0]), start.damping * math.exp(res.x[1]))

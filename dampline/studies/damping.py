@@ -7,9 +7,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .. import checks
 from ..errors import ModelError
 from ..model.line import Attachment, Damping, Line
-from ..solve.exact import check_position, frf
+from ..solve.exact import frf
 from ..solve.modes import modes as compute_modes
 
 
@@ -48,6 +49,11 @@ def damping_needed(line: Line, band_hz, limit: float, drive_at: float, response_
     factor or zeta, found by bisection in log scale; a dashpot's effect is not
     monotonic (a stiff enough dashpot pins the point), so the smallest sufficient value
     is bracketed by a log scan first."""
+    line = checks.solvable(line)
+    mechanism = checks.word("mechanism", mechanism, ("loss_factor", "zeta", "dashpot"))
+    n_freq = checks.whole("n_freq", n_freq, low=3, high=1_000_000)
+    modes = checks.whole("modes", modes, high=100_000)
+    rtol = checks.real("rtol", rtol, "", low=0.0, low_open=True, high=0.5)
     try:
         band = (float(band_hz[0]), float(band_hz[1]))
     except (TypeError, ValueError, IndexError):
@@ -56,7 +62,7 @@ def damping_needed(line: Line, band_hz, limit: float, drive_at: float, response_
         raise ModelError("band_hz", band_hz, "Hz", "must be 0 < low < high, finite")
     if not (isinstance(limit, (int, float)) and limit > 0 and math.isfinite(limit)):
         raise ModelError("limit", limit, "", "must be a positive level in the FRF's unit")
-    xr = float(check_position(line, "response_at", response_at)[0])
+    xr = checks.position(line, "response_at", response_at)
     segs = tuple(s if s.eta is None else type(s)(**{**s.__dict__, "eta": None})
                  for s in line.segments)
     base = line.replace(segments=segs, damping=Damping())
@@ -80,7 +86,7 @@ def damping_needed(line: Line, band_hz, limit: float, drive_at: float, response_
     elif mechanism == "dashpot":
         if at is None:
             raise ModelError("at", None, "m", "a dashpot needs its position")
-        xa = float(check_position(line, "at", at)[0])
+        xa = checks.position(line, "at", at)
         unit = "N m s/rad" if line.kind == "torsion" else "N s/m"
         lo_v, hi_v = None, None
 

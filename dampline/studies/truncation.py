@@ -2,13 +2,15 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
 
 import numpy as np
 
+from .. import checks
 from ..errors import ModelError
 from ..model.line import Line
-from ..solve.exact import check_frequencies, frf
+from ..solve.exact import frf
 from ..solve.modes import modes as compute_modes
 
 
@@ -57,10 +59,16 @@ def truncation_study(line: Line, freqs_hz, drive_at: float, response_at, counts=
                      drive: str = "force") -> TruncationStudy:
     """Error of the modal sum against the exact solution as modes are added (one ModeSet
     of the largest count is computed and reused)."""
-    f = check_frequencies(freqs_hz)
-    counts = np.asarray(sorted(set(int(c) for c in counts)))
-    if counts.size == 0 or counts[0] < 1:
-        raise ModelError("counts", list(counts), "", "must be positive mode counts")
+    line = checks.solvable(line)
+    f = checks.ascending(checks.frequency_array(freqs_hz), "freqs_hz",
+                         "the error is measured in windows along a rising sweep")
+    coupling = checks.word("coupling", coupling, ("full", "diagonal"))
+    if isinstance(counts, (str, bytes)) or not isinstance(counts, Iterable):
+        raise ModelError("counts", counts, "", "must be a list of mode counts")
+    counts = np.asarray(sorted({checks.whole(f"counts[{j}]", c, high=100_000)
+                                for j, c in enumerate(counts)}), dtype=int)
+    if counts.size == 0:
+        raise ModelError("counts", [], "", "must be positive mode counts (none given)")
     if line.damping.model == "modal":
         raise ModelError("damping.model", "modal", "", "the exact reference cannot represent "
                          "modal damping; study truncation with a physical damping model")

@@ -1,9 +1,10 @@
 """Exact frequency response by dynamic stiffness, batched over frequency.
 
 For all frequencies at once: assemble the exact piece stiffnesses and point
-stiffnesses (ends, attachments, absorbers condensed exactly) into the
-tridiagonal K(w), solve K(w) u = f(w) by batched elimination with partial
-pivoting (:mod:`dampline.solve.banded`), then evaluate the exact interior solution of each
+stiffnesses (ends, attachments, absorbers condensed exactly) into K(w),
+tridiagonal for second-order lines and banded (kl = ku = 3) for bending lines,
+solve K(w) u = f(w) by batched elimination with partial pivoting
+(:mod:`dampline.solve.banded`), then evaluate the exact interior solution of each
 piece at the response points (Doyle 1997; Banerjee 1997).
 """
 

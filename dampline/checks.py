@@ -19,8 +19,9 @@ Frequencies (``freqs_hz``) follow one rule set (:func:`frequencies`):
   k L itself carries a relative error of about k L times the rounding unit);
 * on a line free to move as a rigid body, the exact solver is refused below the
   frequency where its dynamic stiffness still resolves the rigid-body inertia
-  (rounding error eps (L/h) / (k L)^2 for second-order kinds, eps (L/h)^3 / (k L)^4
-  for bending, measured); the modal sum, whose rigid-body terms are exact, takes them.
+  (rounding error below eps (L/h) / (k L)^2 for second-order kinds and
+  50 eps (L/h)^3 / (k L)^4 for bending, measured); the modal sum, whose rigid-body terms
+  are exact, takes them.
 """
 
 from __future__ import annotations
@@ -343,13 +344,15 @@ def rescale(values: np.ndarray, factor: np.ndarray) -> np.ndarray:
 def _rigid_floor(ln: Line) -> float:
     """Lowest frequency (Hz) at which the exact solution of a line with rigid-body
     modes keeps its rounding error below RIGID_RTOL. The dynamic stiffness of the
-    shortest piece (h) is S/h (EI/h^3) while the rigid-body inertia seen is w^2 m L:
-    the measured error is about eps (L/h) / (k L)^2, and eps (L/h)^3 / (k L)^4 for
-    bending (pieces are at least 0.36 of the gap between nodes)."""
+    shortest piece (h, at least 0.36 of the gap between nodes) is S/h (EI/h^3) while the
+    rigid-body inertia seen is w^2 m L: the error, measured against the modal sum (whose
+    rigid-body terms are exact), is below eps (L/h) / (k L)^2 for second-order kinds and
+    50 eps (L/h)^3 / (k L)^4 for bending (free-free beams with gaps from 0.2 % to all of
+    L, k L from 0.01 to 3)."""
     L = ln.length
     h = 0.36 * _shortest_gap(ln)
     if ln.kind == "bending":
-        kl = (EPS * (L / h) ** 3 / RIGID_RTOL) ** 0.25
+        kl = (50.0 * EPS * (L / h) ** 3 / RIGID_RTOL) ** 0.25
     else:
         kl = math.sqrt(EPS * (L / h) / RIGID_RTOL)
     return _frequency_at_phase(ln, kl)

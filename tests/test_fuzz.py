@@ -11,7 +11,7 @@ Invalid models: mutations of valid dicts (wrong types, non-finite or negative va
 unknown or missing keys, unknown words) must raise ModelError and nothing else, with the
 offending key in the message.
 
-Examples per test: DAMPLINE_FUZZ_EXAMPLES (default 40); DAMPLINE_FUZZ_RANDOM=1 draws fresh
+Examples per test: DAMPLINE_FUZZ_EXAMPLES (default 80); DAMPLINE_FUZZ_RANDOM=1 draws fresh
 seeds for exploration. Failures found while writing these became explicit tests in
 test_regressions.py.
 """
@@ -25,13 +25,13 @@ import warnings
 
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, assume, given, settings
+from hypothesis import HealthCheck, assume, event, given, settings
 from hypothesis import strategies as st
 
 import dampline as dl
 from dampline import ModelError
 
-N_EXAMPLES = int(os.environ.get("DAMPLINE_FUZZ_EXAMPLES", "40"))
+N_EXAMPLES = int(os.environ.get("DAMPLINE_FUZZ_EXAMPLES", "80"))
 #: DAMPLINE_FUZZ_RANDOM=1 explores with fresh random seeds (not for CI: not repeatable)
 FUZZ = settings(max_examples=N_EXAMPLES, deadline=None, database=None,
                 derandomize=os.environ.get("DAMPLINE_FUZZ_RANDOM", "") != "1",
@@ -222,7 +222,13 @@ def test_exact_response_of_damped_lines_is_finite(case, factors, data):
         return
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        H = dl.frf(line, f, drive_at=xd, response_at=xr, drive=drive, quantity=quantity)
+        try:
+            H = dl.frf(line, f, drive_at=xd, response_at=xr, drive=drive, quantity=quantity)
+        except ModelError as exc:
+            # documented refusal: too low for the exact solution of a free line
+            assert exc.key == "freqs_hz" and "rigid body" in str(exc), exc
+            event("refused: below the free line's floor")
+            return
     values = np.asarray(H)
     assert values.shape == (f.size, len(xr)) and values.dtype == complex
     assert np.all(np.isfinite(values)), values
@@ -277,8 +283,13 @@ def test_undamped_lines_give_finite_values_or_inf_with_a_warning(case, factors, 
     kw = {"modes": data.draw(st.integers(1, 20))} if method == "modal" else {}
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        values = np.asarray(dl.frf(line, f, drive_at=xd, response_at=xr, drive=drive,
-                                   quantity=quantity, method=method, **kw))
+        try:
+            values = np.asarray(dl.frf(line, f, drive_at=xd, response_at=xr, drive=drive,
+                                       quantity=quantity, method=method, **kw))
+        except ModelError as exc:
+            assert exc.key == "freqs_hz" and "rigid body" in str(exc), exc
+            event("refused: below the free line's floor")
+            return
     assert not np.isnan(values).any()
     kinds = {type(w.message) for w in caught}
     assert kinds <= {dl.ResonanceWarning}, [str(w.message) for w in caught]
@@ -343,7 +354,9 @@ def invalid_specs(draw):
         p, v = draw(st.sampled_from([(p, v) for p, v in numeric if p[-1] in
                                      ("length", "E", "G", "rho", "area", "I", "J", "tension",
                                       "mass_per_length", "c", "mass", "stiffness")]))
-        _set(spec, p, -abs(v) if draw(st.booleans()) else 0.0)
+        # zero is refused for properties and absorbers, allowed for lumped elements
+        required = p[0] == "segments" or (len(p) > 1 and p[-2] == "absorber")
+        _set(spec, p, -abs(v) if not required or draw(st.booleans()) else 0.0)
     elif how == "word":
         p, v = draw(st.sampled_from(words))
         _set(spec, p, "x-" + draw(st.text(max_size=8)))

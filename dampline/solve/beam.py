@@ -202,74 +202,37 @@ def piece_stiffness(EI, beta, h):
     return K
 
 
-def _full(Ks, Ka):
-    """The 4x4 piece matrix from its symmetric and antisymmetric 2x2 halves."""
-    s00, s01, s10, s11 = Ks
-    a00, a01, a10, a11 = Ka
-    K = np.empty(np.shape(s00) + (4, 4), dtype=complex)
-    K[..., 0, :] = np.stack([s00 + a00, s01 + a01, s00 - a00, -s01 + a01], -1) / 2
-    K[..., 1, :] = np.stack([s10 + a10, s11 + a11, s10 - a10, -s11 + a11], -1) / 2
-    K[..., 2, :] = np.stack([s00 - a00, s01 - a01, s00 + a00, -s01 - a01], -1) / 2
-    K[..., 3, :] = np.stack([-s10 + a10, -s11 + a11, -s10 - a10, s11 + a11], -1) / 2
-    return K
+def _halves_slope(EI, beta, h):
+    """d/d(beta) of the six entries of :func:`_halves` (scale 1/2) for |lambda| >= 2, by
+    the quotient rule on its closed forms: with a = exp(-i lambda), b = exp(-lambda),
+    dP = i h a, dQ = -i h a, dR = h b, dT = -h b and, for the symmetric half,
 
+        K00 = -2 i EI beta^3 P R / D,  K01 = -EI beta^2 (i P T + Q R) / D,
+        K11 = -2 EI beta Q T / D,  D = i P T - Q R
 
-def _parts_slope(EI, beta, h):
-    """d/d(beta) of the (Ds, Fs, Da, Fa) entries of :func:`_parts` at fixed h, term by
-    term: d/d(beta) exp(-i beta h) = -i h exp(-i beta h), and the Krylov-Duncan
-    functions of z = beta h / 2 obey dC_m/dz = C_(m-1) (C_(-1) = C3)."""
-    shape, (b1, lam) = _regimes(beta, beta * h)
-    hh = np.broadcast_to(np.asarray(h, dtype=float), shape).ravel()
-    small = np.abs(lam) < SMALL
-    out = [np.empty(lam.size, dtype=complex) for _ in range(16)]
-    iL = np.flatnonzero(~small)
-    if iL.size:
-        bb, ll, h1 = b1[iL], lam[iL], hh[iL]
-        b2, b3 = bb * bb, bb * bb * bb
-        a = np.exp(-1j * ll)
-        b = np.exp(-ll)
-        da, db = -1j * h1 * a, -h1 * b
-        vals = (da, db, -1j * (1 - a) + 1j * bb * da, -(1 - b) + bb * db,
-                3j * b2 * (1 - a) - 1j * b3 * da, -3 * b2 * (1 - b) + b3 * db,
-                2 * bb * (1 + a) + b2 * da, -2 * bb * (1 + b) - b2 * db,
-                -da, -db, -1j * (1 + a) - 1j * bb * da, -(1 + b) - bb * db,
-                3j * b2 * (1 + a) + 1j * b3 * da, -3 * b2 * (1 + b) - b3 * db,
-                2 * bb * (1 - a) - b2 * da, -2 * bb * (1 - b) + b2 * db)
-        for o, v in zip(out, vals):
-            o[iL] = v
-    iS = np.flatnonzero(small)
-    if iS.size:
-        bb, h2 = b1[iS], 0.5 * hh[iS]
-        b2, b3 = bb * bb, bb * bb * bb
-        c0, c1, c2, c3 = _krylov(0.5 * lam[iS])
-        d0, d1, d2, d3 = h2 * c3, h2 * c0, h2 * c1, h2 * c2
-        vals = (d0, d2, -c3 - bb * d3, -c1 - bb * d1,
-                -3 * b2 * c1 - b3 * d1, -3 * b2 * c3 - b3 * d3,
-                -2 * bb * c2 - b2 * d2, -2 * bb * c0 - b2 * d0,
-                -d1, -d3, c0 + bb * d0, c2 + bb * d2,
-                3 * b2 * c2 + b3 * d2, 3 * b2 * c0 + b3 * d0,
-                2 * bb * c3 + b2 * d3, 2 * bb * c1 + b2 * d1)
-        for o, v in zip(out, vals):
-            o[iS] = v
-    out = [o.reshape(shape) for o in out]
-    Ds, Fs, Da, Fa = out[0:4], out[4:8], out[8:12], out[12:16]
-    return tuple(Ds), tuple(EI * f for f in Fs), tuple(Da), tuple(EI * f for f in Fa)
-
-
-def piece_stiffness_slope(EI, beta, h):
-    """d/d(beta) of the 4x4 exact dynamic stiffness, (..., 4, 4): from K = F D^-1 of
-    each half, dK = (dF - K dD) D^-1. For real beta, -dK/d(w^2) = -(beta / 4 w^2)
-    dK/d(beta) is the exact dynamic mass: v^T (-dK/d(w^2)) v = int m w(x)^2 dx for the
-    exact field w with end values v (Richards and Leung, J. Sound Vib. 55, 1977)."""
-    Ds, Fs, Da, Fa = _parts(EI, beta, h)
-    dDs, dFs, dDa, dFa = _parts_slope(EI, beta, h)
-    halves = []
-    for D, F, dD, dF in ((Ds, Fs, dDs, dFs), (Da, Fa, dDa, dFa)):
-        Di = _inv2(*D)
-        K = _mul2(F, Di)
-        KdD = _mul2(K, dD)
-        halves.append(_mul2(tuple(f - k for f, k in zip(dF, KdD)), Di))
-    return _full(*halves)
+    (the antisymmetric half swaps P <-> Q and R <-> T)."""
+    shape, (bb, ll, ei, hh) = _regimes(beta, beta * h, EI, h)
+    a = np.exp(-1j * ll)
+    b = np.exp(-ll)
+    P, Q, R, T = 1.0 - a, 1.0 + a, 1.0 - b, 1.0 + b
+    dP, dR = 1j * hh * a, hh * b
+    dQ, dT = -dP, -dR
+    c1 = 0.5 * ei                                   # (the halves' scale 1/2)
+    e1, e2, e3 = c1 * bb, c1 * bb * bb, c1 * bb * bb * bb
+    out = []
+    for P_, Q_, R_, T_, dP_, dQ_, dR_, dT_ in ((P, Q, R, T, dP, dQ, dR, dT),
+                                              (Q, P, T, R, dQ, dP, dT, dR)):
+        PT, QR = P_ * T_, Q_ * R_
+        dPT, dQR = dP_ * T_ + P_ * dT_, dQ_ * R_ + Q_ * dR_
+        iD = 1.0 / (1j * PT - QR)
+        dD = 1j * dPT - dQR
+        N0, dN0 = P_ * R_, dP_ * R_ + P_ * dR_
+        N1, dN1 = 1j * PT + QR, 1j * dPT + dQR
+        N2, dN2 = Q_ * T_, dQ_ * T_ + Q_ * dT_
+        out += [-2j * (3.0 * e2 * N0 * iD + e3 * (dN0 - N0 * dD * iD) * iD),
+                -(2.0 * e1 * N1 * iD + e2 * (dN1 - N1 * dD * iD) * iD),
+                -2.0 * (c1 * N2 * iD + e1 * (dN2 - N2 * dD * iD) * iD)]
+    return tuple(o.reshape(shape) for o in out)
 
 
 #: Gauss-Legendre rule for the mass of a piece with |beta h| < SMALL: the integrand is entire
@@ -286,7 +249,7 @@ def piece_mass(EI, m, beta, h):
         M = -dK/d(w^2) = -(m / (4 EI beta^3)) dK/d(beta),   v^T M u = int m N v . N u dx,
 
     with N the exact shape functions at that frequency (Richards and Leung, J. Sound
-    Vib. 55, 1977). For |beta h| >= 2 from :func:`piece_stiffness_slope`; below, where
+    Vib. 55, 1977). For |beta h| >= 2 from the closed forms (:func:`_halves_slope`); below, where
     that difference cancels like 1/(beta h)^4, as int m N N^T dx by Gauss quadrature of
     the Krylov-Duncan form of N; for beta h < 1e-6 the Hermite cubic consistent mass."""
     EI, m, beta, h = np.broadcast_arrays(*(np.asarray(a, dtype=float) for a in (EI, m, beta, h)))
@@ -297,7 +260,12 @@ def piece_mass(EI, m, beta, h):
     iL = np.flatnonzero(lam >= SMALL)
     if iL.size:
         b = beta[iL]
-        dK = piece_stiffness_slope(EI[iL], b, h[iL]).real
+        s00, s01, s11, a00, a01, a11 = (x.real for x in _halves_slope(EI[iL], b, h[iL]))
+        # recombined like piece_entries' halves
+        k00, k02, k11, k13 = s00 + a00, s00 - a00, s11 + a11, a11 - s11
+        k01, k03, k21 = s01 + a01, a01 - s01, s01 - a01
+        dK = np.stack([np.stack(r, -1) for r in ((k00, k01, k02, k03), (k01, k11, k21, k13),
+                                                  (k02, k21, k00, -k01), (k03, k13, -k01, k11))], -2)
         out[iL] = -(m[iL] / (4.0 * EI[iL] * b ** 3))[:, None, None] * dK
     i0 = np.flatnonzero(lam < 1e-6)
     if i0.size:
@@ -315,10 +283,18 @@ def piece_mass(EI, m, beta, h):
         C = np.stack([np.stack([s0, s1, s0, -s1], -1), np.stack([s2, s3, s2, -s3], -1),
                       np.stack([a0, a1, -a0, a1], -1), np.stack([a2, a3, -a2, a3], -1)], 1)
         t, wq = _GAUSS
-        Ck = _krylov(0.5 * lam[iS][:, None] * t[None, :])         # C_m(beta (x - h/2))
-        B = np.stack([Ck[0].real, Ck[2].real, Ck[1].real, Ck[3].real], 1)   # (n, 4, q)
-        G = np.einsum("nbq,ncq,q->nbc", B, B, wq) * (0.5 * hh)[:, None, None]
-        out[iS] = m[iS][:, None, None] * np.einsum("nbi,nbc,ncj->nij", C, G, C)
+        # C_m(beta (x - h/2)) at the Gauss points: real arguments, so the series in reals
+        z = 0.5 * lam[iS].real[:, None] * t[None, :]
+        z2 = z * z
+        z4 = z2 * z2
+        Pk = np.empty((_NTERMS,) + z.shape)
+        Pk[0] = 1.0
+        for k in range(1, _NTERMS):
+            np.multiply(Pk[k - 1], z4, out=Pk[k])
+        Sk = np.einsum("mk,k...->m...", _KCOEF, Pk)
+        B = np.stack([Sk[0], z2 * Sk[2], z * Sk[1], z2 * z * Sk[3]], 1)   # (n, 4 basis, q)
+        G = (B * (wq * 0.5 * hh[:, None])[:, None, :]) @ np.swapaxes(B, 1, 2)
+        out[iS] = m[iS][:, None, None] * (np.swapaxes(C, 1, 2) @ G @ C)
     return out.reshape(shape + (4, 4))
 
 

@@ -28,9 +28,9 @@ from ..errors import ModelError
 from ..families import static_coefficients
 from ..model.line import EndTable, Line
 from . import beam
-from .mesh import (GOLDEN, SPLITS, Mesh, _cc_bending_roots, assemble, build_mesh, free_dofs,
-                   held_dofs, interior_field, piece_stiffness, piece_wavenumbers, pole_distance,
-                   static_field)
+from .mesh import (GOLDEN, SPLITS, Mesh, _cc_bending_roots, _node_terms, assemble, build_mesh,
+                   free_dofs, held_dofs, interior_field, piece_stiffness, piece_wavenumbers,
+                   pole_distance, static_field)
 
 __all__ = ["natural_frequencies", "modes", "ModeSet"]
 
@@ -219,8 +219,8 @@ _RFI_TOL = 1e-13
 _RFI_ITER = 12
 #: shifts of the linearised eigenproblem: one per ~this many modes (Weyl count), each
 #: with the exact poles of the _POLES nearest clamped-piece modes
-_SHIFT_SPACING = 1.0
-_POLES = 6
+_SHIFT_SPACING = 1.5
+_POLES = 8
 
 
 def _blocks(n_points: int, n: int):
@@ -264,6 +264,31 @@ def _inverse_step(Ks: np.ndarray, rhs: np.ndarray) -> np.ndarray:
                                      rhs[bad][:, :, None])[:, :, 0]
     y = y / np.abs(y).max(axis=1, keepdims=True)         # (a huge y must not overflow |y|)
     return y / np.linalg.norm(y, axis=1, keepdims=True)
+
+
+def _energy(mesh: Mesh, omega: np.ndarray, X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(x^T K(w) x, the sum of its terms' magnitudes) for nodal vectors X (batch, n_dof) of
+    a second-order line, summed without the cancellation of the assembled matrix. For a
+    nearly rigid motion (a line on soft springs) the piece stiffnesses S / h cancel in
+    K x; per piece, with k11 + k12 = S k (cos kh - 1) / sin kh = -S k tan(kh / 2),
+
+        x^T K_e x = (k11 + k12) (xa^2 + xb^2) - k12 (xa - xb)^2,
+
+    and per absorber k (x_node - x_mass)^2 - w^2 m x_mass^2: every term is then of the
+    size of the result."""
+    nn = mesh.n_nodes
+    S, k = piece_wavenumbers(mesh, omega, damped=False)
+    t = k * mesh.piece_h
+    xa, xb = X[:, :nn - 1], X[:, 1:nn]
+    terms = [-S * k * np.tan(0.5 * t) * (xa * xa + xb * xb),
+             S * k / np.sin(t) * (xa - xb) ** 2]
+    terms += [(kk * X[:, dof] ** 2)[:, None] for dof, kk in _node_terms(mesh, omega, False)]
+    for j, (node, ab) in enumerate(mesh.absorbers):
+        xq = X[:, mesh.n_line_dofs + j]
+        terms += [(ab.stiffness * (X[:, node] - xq) ** 2)[:, None],
+                  (-omega * omega * ab.mass * xq * xq)[:, None]]
+    return (sum(tt.sum(axis=1) for tt in terms),
+            sum(np.abs(tt).sum(axis=1) for tt in terms))
 
 
 def _phase(mesh: Mesh) -> tuple[float, float]:
@@ -484,8 +509,9 @@ def _refine(counter: _Counter, omega: np.ndarray, poles: _Poles,
     eigenvalue problems, TU Berlin thesis, 2008). B, the regular part of the mass, is
     renewed only while a step exceeds 1e-4 (it varies slowly; the poles are in T): the
     steps then still contract by ~1e-4, and only K(w) is assembled again.
-    The iteration stops when a step is below _RFI_TOL or a few times the rounding level
-    of the quotient (eps |z|^T |T| |z| / z^T B z). With ``targets`` (ascending, one per
+    The iteration stops when a step is below _RFI_TOL, or when two steps show a
+    contraction that leaves less than ~4e-15, or at a few times the rounding level of
+    the quotient (eps |z|^T |T| |z| / z^T B z). With ``targets`` (ascending, one per
     estimate) every iterate is kept between the mid-points to the estimates of the
     neighbouring targets, so that an early step cannot carry it to a neighbour's root.
     Returns (omega, converged)."""
@@ -521,6 +547,7 @@ def _refine_block(counter: _Counter, poles: _Poles, w2: np.ndarray, lo: np.ndarr
     Bs = np.zeros((w2.size, m_, m_))
     D = np.ones((w2.size, n))
     stale = np.ones(w2.size, dtype=bool)
+    last = np.full(w2.size, np.inf)                  # the previous step
     f = counter.free
     for it in range(_RFI_ITER):
         first = it == 0
@@ -529,11 +556,14 @@ def _refine_block(counter: _Counter, poles: _Poles, w2: np.ndarray, lo: np.ndarr
             break
         renew = ib[stale[ib]]
         if renew.size:
-            Ks, Ms, D[renew] = _free_pair(counter, np.sqrt(w2[renew]))
-            _T, Bs[renew] = poles.augmented(Ks, Ms, D[renew], w2[renew], win[renew])
-        K, _J0 = assemble(counter.mesh, np.sqrt(w2[ib]), damped=False)
+            Kr, Ms, D[renew] = _free_pair(counter, np.sqrt(w2[renew]))
+            _T, Bs[renew] = poles.augmented(Kr, Ms, D[renew], w2[renew], win[renew])
         d = D[ib]
-        Ks = K[:, f[:, None], f[None, :]] * (d[:, :, None] * d[:, None, :])
+        if renew.size == ib.size:                    # all renewed here: K is at hand
+            Ks = Kr
+        else:
+            K, _J0 = assemble(counter.mesh, np.sqrt(w2[ib]), damped=False)
+            Ks = K[:, f[:, None], f[None, :]] * (d[:, :, None] * d[:, None, :])
         T, _B, G = poles._blank(ib.size, n, d, win[ib])
         dp = poles.vals[win[ib]] ** 2 - w2[ib, None]
         T[:, :n, :n] = Ks + (G / dp[:, None, :]) @ np.swapaxes(G, 1, 2)
@@ -547,7 +577,19 @@ def _refine_block(counter: _Counter, poles: _Poles, w2: np.ndarray, lo: np.ndarr
             Z[ib] = _inverse_step(T, Z[ib])
         y = _inverse_step(T, np.einsum("fij,fj->fi", B, Z[ib]))
         den = np.einsum("fi,fij,fj->f", y, B, y)
-        step = np.einsum("fi,fij,fj->f", y, T, y) / den
+        if counter.mesh.dpn == 1:
+            # z^T T z = x^T K x + sum (g.x + (p^2 - w^2) q)^2 / (p^2 - w^2), K's part
+            # summed term by term (:func:`_energy`)
+            X = np.zeros((ib.size, counter.mesh.n_dof))
+            X[:, f] = y[:, :n] * d
+            e, e_abs = _energy(counter.mesh, np.sqrt(w2[ib]), X)
+            r = np.einsum("fip,fi->fp", G, y[:, :n]) + dp * y[:, n:]
+            num = e + (r * r / dp).sum(axis=1)
+            num_abs = e_abs + (r * r / np.abs(dp)).sum(axis=1)
+        else:
+            num = np.einsum("fi,fij,fj->f", y, T, y)
+            num_abs = None
+        step = num / den
         new = np.clip(w2[ib] + step, lo[ib], hi[ib])
         # held at a bound twice: heading for a neighbour's root; left to the fallback
         pinned = (new != w2[ib] + step) & (new == w2[ib])
@@ -555,8 +597,16 @@ def _refine_block(counter: _Counter, poles: _Poles, w2: np.ndarray, lo: np.ndarr
         ok = np.isfinite(new) & (new > 0.0) & ~pinned
         alive[ib] &= ok
         conv = np.abs(step) <= _RFI_TOL * np.abs(new)
+        # contracting by r = |step / last step| < 1/2: the error left after this step is
+        # about r |step| / (1 - r); below ~4e-15 w^2 (2e-15 in w) the next step would
+        # only confirm it
+        r = np.abs(step) / last[ib]
+        conv |= np.isfinite(last[ib]) & (r < 0.5) & (r * np.abs(step) <= 2e-15 * np.abs(new))
+        last[ib] = np.abs(step)
         small = np.flatnonzero(ok & ~conv & (np.abs(step) <= 1e-9 * np.abs(new)))
-        if small.size:
+        if small.size and num_abs is not None:
+            conv[small] = np.abs(step[small]) <= 8.0 * eps * num_abs[small] / den[small]
+        elif small.size:
             # the rounding level of the quotient, with the magnitudes before the pole
             # terms cancel K's growth next to a pole
             ya, ga, pa = np.abs(y[small]), np.abs(G[small]), np.abs(dp[small])
@@ -574,11 +624,16 @@ def _refine_block(counter: _Counter, poles: _Poles, w2: np.ndarray, lo: np.ndarr
 
 def _certify(counter: _Counter, targets: np.ndarray, roots: np.ndarray) -> np.ndarray:
     """One stable Wittrick-Williams count at separators g: the geometric mid-point between
-    the roots of consecutive targets, and w (1 -+ _CERTIFY) at the ends of each run of
-    consecutive targets. True where J(g below) = target - 1 and J(g above) = target,
-    with the root strictly between: exactly one natural frequency lies between its
-    separators, the target-th, and the converged root (a point where K(w) is singular)
-    is it. ``targets`` ascending and distinct."""
+    the roots of consecutive targets and, at the ends of each run of consecutive
+    targets, w (1 -+ s) with s a quarter of the run's neighbouring relative gap, or for
+    a lone target of the mean relative spacing of the modes there (the Weyl count
+    phi = c w^a rises by one per mode: dw / w = 1 / (a phi)), in [_CERTIFY, 0.5]: not
+    closer than need be, since right at a poorly conditioned root the count is rounding
+    noise. True where
+    J(g below) = target - 1 and J(g above) = target, with the root strictly between:
+    exactly one natural frequency lies between its separators, the target-th, and the
+    converged root (a point where K(w) is singular) is it. ``targets`` ascending and
+    distinct."""
     n = roots.size
     ok = np.isfinite(roots) & (roots > 0.0)
     w = np.where(ok, roots, 1.0)
@@ -587,9 +642,14 @@ def _certify(counter: _Counter, targets: np.ndarray, roots: np.ndarray) -> np.nd
     sep = nxt.copy()
     sep[:-1] &= w[1:] > w[:-1] * (1.0 + 2.0 * _CERTIFY)
     mid = np.sqrt(w[:-1] * w[1:]) if n > 1 else np.zeros(0)
-    upper = np.where(sep, np.concatenate([mid, [0.0]]), w * (1.0 + _CERTIFY))
     prev = np.concatenate([[False], sep[:-1]])
-    lower = np.where(prev, np.concatenate([[0.0], mid]), w * (1.0 - _CERTIFY))
+    gap = np.clip(0.25 * (w[1:] / w[:-1] - 1.0), _CERTIFY, 0.5) if n > 1 else np.zeros(0)
+    c, a = _phase(counter.mesh)
+    lone = np.clip(0.25 / (a * c * w ** a), _CERTIFY, 0.5)
+    s_hi = np.where(prev, np.concatenate([[0.0], gap]), lone)    # run end: the gap below
+    s_lo = np.where(sep, np.concatenate([gap, [0.0]]), lone)     # run start: the gap above
+    upper = np.where(sep, np.concatenate([mid, [0.0]]), w * (1.0 + s_hi))
+    lower = np.where(prev, np.concatenate([[0.0], mid]), w * (1.0 - s_lo))
     pts = np.concatenate([upper, lower[~prev]])                  # shared mid-points once
     J = np.concatenate([counter.stable(pts[b])[0] for b in _blocks(pts.size, counter.free.size)])
     j_up = J[:n]
@@ -893,17 +953,26 @@ def _mode_vectors(counter: _Counter, omega: np.ndarray, n_rigid: int) -> np.ndar
     single = np.flatnonzero(~in_group)
     n = free.size
     x0 = np.random.default_rng(7).standard_normal(n)
+    norms = np.zeros(count)
     for blk in _blocks(single.size, n):
         ib = single[blk]
         K, _J0 = assemble(mesh, w[ib], damped=False)
-        # scaled to a unit mass diagonal, like the refinement
-        d = 1.0 / np.sqrt(np.einsum("fii->fi", _mass_matrix(mesh, w[ib]))[:, free])
+        M = _mass_matrix(mesh, w[ib])
+        # symmetric row-norm scaling, rows taken over all DOFs (held ones included): the
+        # diagonal, or even the whole free row, can cancel to ~0 at a root. (A unit mass
+        # diagonal would not do: a very short piece's node has a tiny mass and a huge
+        # stiffness, and the null vector lost 5e-6 in mass-orthogonality, measured.)
+        rowmax = np.abs(K[:, free, :]).max(axis=2)
+        d = 1.0 / (np.sqrt(np.maximum(rowmax, 1e-8 * rowmax.max(axis=1, keepdims=True))) + 1e-300)
         Ks = K[:, free[:, None], free[None, :]] * (d[:, :, None] * d[:, None, :])
         Q, R = np.linalg.qr(Ks)
         y = np.tile(x0, (ib.size, 1))
         for _ in range(2):
             y = _inverse_step(R, np.einsum("fji,fj->fi", Q, y))
-        nodal[el[ib][:, None], free[None, :]] = y * d
+        X = np.zeros((ib.size, mesh.n_dof))
+        X[:, free] = y * d
+        nodal[el[ib]] = X
+        norms[el[ib]] = np.einsum("fi,fij,fj->f", X, M, X)
     grouped = np.flatnonzero(in_group)
     if grouped.size:
         wg = w[grouped]
@@ -922,8 +991,11 @@ def _mode_vectors(counter: _Counter, omega: np.ndarray, n_rigid: int) -> np.ndar
         for i in range(grouped.size):
             nodal[el[grouped[i]], free] = vec[i][:, order[i, pos[i]]] / dg[i]
     # mass-normalise (Gram-Schmidt in the mass inner product inside coincident groups)
-    for blk in _blocks(count, mesh.n_dof):
-        nodal[blk] /= np.sqrt(_mass_products(mesh, omega[blk], nodal[blk], nodal[blk]))[:, None]
+    rest = np.setdiff1d(np.arange(count), el[single])          # rigid and grouped modes
+    for blk in _blocks(rest.size, mesh.n_dof):
+        ir = rest[blk]
+        norms[ir] = _mass_products(mesh, omega[ir], nodal[ir], nodal[ir])
+    nodal /= np.sqrt(norms)[:, None]
     start = 0
     while start < count:
         stop = start + 1

@@ -23,16 +23,9 @@ import dampline as dl
 
 __all__ = ["SweepView"]
 
+from .app import _db   # one masking rule for every dB axis
+
 _BLUE, _ORANGE, _RED, _GREY = "#1f5fa8", "#c8501e", "#b22222", "#6b6b6b"
-
-
-def _db(values: np.ndarray) -> np.ndarray:
-    """20 log10 |H| with zeros, inf and NaN masked to NaN (nothing infinite on an axis)."""
-    mag = np.abs(values)
-    out = np.full(mag.shape, np.nan)
-    ok = np.isfinite(mag) & (mag > 0)
-    out[ok] = 20.0 * np.log10(mag[ok])
-    return out
 
 
 class SweepView(W.VBox):

@@ -115,9 +115,8 @@ def _dask(line: dl.Line, f: np.ndarray, case: tuple) -> dict | None:
         return None
     path, values = case
     kw = dict(drive_at=DRIVE_AT, response_at=RESPONSE_AT, progress=False)
-    # single-threaded BLAS everywhere, so that one process is one core
-    os.environ.setdefault("OMP_NUM_THREADS", "1")
-    os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+    # the environment is left as it is: dask's nanny itself starts each worker with
+    # single-threaded BLAS and MALLOC_TRIM_THRESHOLD_=65536 (its pre-spawn-environ)
     with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
                       dashboard_address=None) as cluster, Client(cluster) as client:
         dl.sweep(line, path, values[:8], f, client=client, chunk=4, **kw)     # warm the workers

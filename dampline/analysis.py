@@ -17,7 +17,7 @@ from . import checks
 from .errors import ModelError
 from .model.line import Line
 from .solve.exact import check_position, check_request
-from .solve.modal import ModalModel, modal_model, modal_response, resolve_modes
+from .solve.modal import ModalModel, k_eigen, modal_model, modal_response, per_line, resolve_modes
 from .solve.modes import ModeSet
 
 __all__ = ["ModalTable", "modal_table", "Coupling", "coupling"]
@@ -91,7 +91,8 @@ def _damping_ratios(mm: ModalModel):
     if not np.any(mm.C1):
         # hysteretic only: eigenvalues l = w_n^2 (1 + i eta) of M1^-1 K0; at resonance
         # such a mode behaves as zeta = eta / 2 (peak 1/eta, bandwidth eta f_n)
-        lam = np.linalg.eigvals(np.linalg.solve(mm.M1, mm.K0))
+        ke = k_eigen(mm)        # shared with the FRF's diagonalisation of the same line
+        lam = ke[0] if ke is not None else np.linalg.eigvals(np.linalg.solve(mm.M1, mm.K0))
         lam = lam[np.argsort(lam.real)][-el.size:] if el.size else lam[:0]
         zeta[el] = 0.5 * lam.imag / lam.real
         fd[el] = np.sqrt(lam.real) / (2 * math.pi)
@@ -142,7 +143,17 @@ def _decoupled_loss_factors(mm: ModalModel):
 
 def _mode_damping(mm: ModalModel, eta_diag: np.ndarray):
     """(zeta, damped frequency Hz, all-hysteretic?) per mode: coupled where the complex
-    eigenvalues are available, else from the decoupled loss factor; rigid rows NaN."""
+    eigenvalues are available, else from the decoupled loss factor; rigid rows NaN.
+
+    Kept on the ModeSet for the last line it was asked for: the table and the
+    coupling of the same damped line (the dashboard asks for both after every move)
+    then share one eigen-solution of the 2N state-space matrix."""
+    zeta, fd, hysteretic = per_line(mm, "mode_damping",
+                                    lambda: _mode_damping_uncached(mm, eta_diag))
+    return zeta.copy(), fd.copy(), hysteretic
+
+
+def _mode_damping_uncached(mm: ModalModel, eta_diag: np.ndarray):
     coupled = _damping_ratios(mm)
     if coupled is not None:
         zeta, fd, hysteretic = coupled
@@ -158,6 +169,16 @@ def _mode_damping(mm: ModalModel, eta_diag: np.ndarray):
         fd = mm.modes.frequencies * np.sqrt(np.clip(1.0 - zeta ** 2, 0.0, None))
         hysteretic = True
     return np.where(mm.modes.omega == 0.0, np.nan, zeta), fd, hysteretic
+
+
+def _peak_displacement(ms: ModeSet) -> np.ndarray:
+    """Largest |phi| of each mode on 801 points along the line (kept on the ModeSet:
+    it depends on the undamped modes only)."""
+    cache = ms.__dict__
+    if "_peak_displacement" not in cache:
+        x = np.linspace(0.0, ms.line.length, 801)
+        cache["_peak_displacement"] = np.abs(ms.shape(x)).max(axis=0)
+    return cache["_peak_displacement"]
 
 
 def modal_table(line: Line, count: int | ModeSet = 10, *, drive_at: float | None = None,
@@ -184,8 +205,7 @@ def modal_table(line: Line, count: int | ModeSet = 10, *, drive_at: float | None
     zeta, fd, hysteretic = _mode_damping(mm, eta_diag)
     with np.errstate(divide="ignore", invalid="ignore"):
         Q = 1.0 / (2.0 * zeta)
-    x = np.linspace(0.0, line.length, 801)
-    peak_disp = np.abs(ms.shape(x)).max(axis=0)
+    peak_disp = _peak_displacement(ms)
     cols = {
         "mode": np.arange(1, ms.count + 1, dtype=float),
         "frequency": f,

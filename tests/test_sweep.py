@@ -10,7 +10,12 @@ a dask LocalCluster run against the local run (identical arrays).
 
 from __future__ import annotations
 
+import importlib
 import math
+import os
+import subprocess
+import sys
+import textwrap
 from pathlib import Path
 
 import numpy as np
@@ -304,5 +309,45 @@ def test_dask_cluster_identical():
         remote = dl.sweep(line, "attachments.0.absorber.stiffness", vals, f, client=client, **kw)
         with pytest.raises(dl.ModelError, match="absorber.stiffness"):
             dl.sweep(line, "attachments.0.absorber.stiffness", [-1.0], f, client=client, **kw)
+        # a bad variant in a later chunk is checked on a worker: the same message as
+        # the local check gives, naming that variant
+        bad = np.r_[vals[:5], -2.0]
+        with pytest.raises(dl.ModelError) as remote_err:
+            dl.sweep(line, "attachments.0.absorber.stiffness", bad, f, client=client, **kw)
+    with pytest.raises(dl.ModelError) as local_err:
+        dl.sweep(line, "attachments.0.absorber.stiffness", bad, f, **kw)
+    assert str(remote_err.value) == str(local_err.value)
+    assert "-2" in str(local_err.value)
     np.testing.assert_array_equal(remote.frf, local.frf)
     np.testing.assert_array_equal(remote.values, local.values)
+
+
+def test_heap_setting_only_where_the_environment_fixed_it():
+    """dask workers start with MALLOC_TRIM_THRESHOLD_ set, which fixes glibc's mmap
+    threshold; only then does a chunk raise the thresholds, and it puts them back.
+    Run in child processes: the allocator settings are process-wide."""
+    script = textwrap.dedent("""
+        import importlib
+        sw = importlib.import_module("dampline.studies.sweep")
+        with sw._heap_kept() as h:
+            active = h._libc is not None
+            if active:
+                mallopt, trim = h._libc
+                calls = []
+                h._libc = (lambda p, v: calls.append((p, v)) or mallopt(p, v), trim)
+        print(active, calls if active else [])
+    """)
+    env = {k: v for k, v in os.environ.items() if not k.startswith("MALLOC_")}
+    plain = subprocess.run([sys.executable, "-c", script], env=env, capture_output=True,
+                           text=True, check=True).stdout.split(None, 1)
+    assert plain[0] == "False"
+    fixed = subprocess.run([sys.executable, "-c", script],
+                           env={**env, "MALLOC_TRIM_THRESHOLD_": "65536"},
+                           capture_output=True, text=True, check=True).stdout.split(None, 1)
+    if fixed[0] == "False":
+        pytest.skip("glibc's mallopt is not available here")
+    sw = importlib.import_module("dampline.studies.sweep")
+    # restored: the trim threshold to the environment's value, the mmap threshold to
+    # glibc's fixed default
+    assert fixed[1].strip() == str([(sw._M_TRIM_THRESHOLD, 65536),
+                                    (sw._M_MMAP_THRESHOLD, 128 * 1024)])

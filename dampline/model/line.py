@@ -79,23 +79,24 @@ _DAMPING_KEYS = {
 }
 
 
+_UNITS = {
+    "length": "m", "at": "m", "E": "Pa", "G": "Pa", "rho": "kg/m^3",
+    "area": "m^2", "I": "m^4", "J": "m^4", "tension": "N",
+    "mass_per_length": "kg/m", "c": "m/s", "eta": "(loss factor)",
+    "viscosity": "Pa s", "gamma": "(ratio of specific heats)",
+    "prandtl": "(Prandtl number)", "zeta": "(damping ratio)",
+    "alpha": "1/s", "beta": "s",
+    "mass": "kg", "spring": "N/m", "dashpot": "N s/m", "stiffness": "N/m", "damping": "N s/m",
+    "rot_spring": "N m/rad", "rot_inertia": "kg m^2",
+}
+#: the point values of a torsion line are rotary
+_UNITS_TORSION = {**_UNITS, "mass": "kg m^2", "spring": "N m/rad", "dashpot": "N m s/rad",
+                  "stiffness": "N m/rad", "damping": "N m s/rad"}
+
+
 def unit_of(key: str, kind: str = "axial") -> str:
     """SI unit of a model key for a kind, as shown in messages and tables."""
-    rotary = kind == "torsion"
-    units = {
-        "length": "m", "at": "m", "E": "Pa", "G": "Pa", "rho": "kg/m^3",
-        "area": "m^2", "I": "m^4", "J": "m^4", "tension": "N",
-        "mass_per_length": "kg/m", "c": "m/s", "eta": "(loss factor)",
-        "viscosity": "Pa s", "gamma": "(ratio of specific heats)",
-        "prandtl": "(Prandtl number)", "zeta": "(damping ratio)",
-        "alpha": "1/s", "beta": "s",
-        "mass": "kg m^2" if rotary else "kg",
-        "spring": "N m/rad" if rotary else "N/m",
-        "dashpot": "N m s/rad" if rotary else "N s/m",
-        "stiffness": "N m/rad" if rotary else "N/m",
-        "damping": "N m s/rad" if rotary else "N s/m",
-        "rot_spring": "N m/rad", "rot_inertia": "kg m^2",
-    }
+    units = _UNITS_TORSION if kind == "torsion" else _UNITS
     return units.get(key.split(".")[-1].split("[")[0], "")
 
 
@@ -115,6 +116,11 @@ ETA_MAX = 10.0
 
 def _number(key: str, value: Any, kind: str, *, positive: bool = True,
             allow_zero: bool = False) -> float:
+    if type(value) is float and positive and not allow_zero:
+        # the common case, checked first without building the message parts
+        if MAGNITUDE[0] <= value <= MAGNITUDE[1] and (value <= ETA_MAX
+                                                      or key.rsplit(".", 1)[-1] != "eta"):
+            return value
     unit = unit_of(key, kind)
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         try:

@@ -35,7 +35,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Callable
+from typing import Any, Callable
 
 import numpy as np
 
@@ -341,19 +341,50 @@ def _drive_vector(ms: ModeSet, xd: float, drive: str) -> np.ndarray:
     return _points(ms, xd, 1 if drive == "moment" else 0)
 
 
+def per_line(mm: ModalModel, name: str, compute: Callable[[], Any]) -> Any:
+    """``compute()``, kept on the ModeSet for the damped line of ``mm``: the FRF, the
+    modal table and the coupling of one line (the dashboard asks for all three after
+    every move) share each frequency-independent eigen-solution. One line is kept at
+    a time; another line starts afresh."""
+    store = mm.modes.__dict__.setdefault("_per_line", [None, {}])
+    try:
+        same = store[0] is mm.line or bool(store[0] == mm.line)
+    except Exception:                  # a model value without a plain equality
+        return compute()
+    if not same:
+        store[0], store[1] = mm.line, {}
+    if name not in store[1]:
+        store[1][name] = compute()
+    return store[1][name]
+
+
+def k_eigen(mm: ModalModel):
+    """M1^-1 K0 = V diag(lam) V^-1: (lam, V, V^-1 M1^-1), or None when V is too
+    ill-conditioned to trust (cond > 1e10). Kept per line (:func:`per_line`)."""
+    def compute():
+        Minv = np.linalg.inv(mm.M1)
+        lam, V = np.linalg.eig(Minv @ mm.K0)
+        if np.linalg.cond(V) > 1e10:
+            return None
+        return lam, V, np.linalg.solve(V, Minv)
+    return per_line(mm, "k_eigen", compute)
+
+
 def _state_space(mm: ModalModel):
     """Eigen-decomposition of the polynomial part of D: returns (lam, left, right)
     such that D(w)^(-1) = left @ diag(1/(i w - lam)) @ right, or None when it is
     too ill-conditioned to trust (then the caller solves per frequency)."""
-    N = mm.K0.shape[0]
-    Minv = np.linalg.inv(mm.M1)
     if not np.any(mm.C1):
         # D = M1 (M1^-1 K0 - w^2): diagonalise M1^-1 K0 = V L V^-1; with i w = s,
         # (L + s^2)^-1 keeps the pole form in w^2
-        lam, V = np.linalg.eig(Minv @ mm.K0)
-        if np.linalg.cond(V) > 1e10:
-            return None
-        return ("k", lam, V, np.linalg.solve(V, Minv))
+        ke = k_eigen(mm)
+        return None if ke is None else ("k", *ke)
+    return per_line(mm, "state_space", lambda: _state_space_2n(mm))
+
+
+def _state_space_2n(mm: ModalModel):
+    N = mm.K0.shape[0]
+    Minv = np.linalg.inv(mm.M1)
     A = np.zeros((2 * N, 2 * N), dtype=complex)
     A[:N, N:] = np.eye(N)
     A[N:, :N] = -Minv @ mm.K0
@@ -391,11 +422,10 @@ def _low_rank(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, phi_r: np.ndarra
         b = phi_d.astype(complex)
         Vt_P = None
     elif np.abs(np.diag(C_diag)).max(initial=0.0) == 0.0:
-        Minv = np.linalg.inv(mm.M1)
-        lam, V = np.linalg.eig(Minv @ mm.K0)
-        if np.linalg.cond(V) > 1e10:
+        ke = k_eigen(mm)
+        if ke is None:
             return None
-        Vi = np.linalg.solve(V, Minv)
+        lam, V, Vi = ke
         lam_w = 1.0 / (lam[None, :] - (w * w)[:, None])
         left = phi_r @ V
         b = Vi @ phi_d

@@ -813,8 +813,16 @@ class ModeSet:
         """The lowest ``n`` modes of this set (no recomputation)."""
         if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or not 1 <= n <= self.count:
             raise ModelError("modes", n, "", f"must be a count from 1 to {self.count}")
-        return ModeSet(line=self.line, frequencies=self.frequencies[:n], mesh=self.mesh,
-                       nodal=self.nodal[:n], n_rigid=min(self.n_rigid, int(n)))
+        if int(n) == self.count:
+            return self
+        # the same subset object each time, so that what is cached on it (residual
+        # shapes, damping eigenvalues) is reused
+        firsts = self.__dict__.setdefault("_firsts", {})
+        if int(n) not in firsts:
+            firsts[int(n)] = ModeSet(line=self.line, frequencies=self.frequencies[:n],
+                                     mesh=self.mesh, nodal=self.nodal[:n],
+                                     n_rigid=min(self.n_rigid, int(n)))
+        return firsts[int(n)]
 
     @property
     def absorber_amplitudes(self) -> np.ndarray:

@@ -17,7 +17,8 @@ from . import checks
 from .errors import ModelError
 from .model.line import Line
 from .solve.exact import check_position, check_request
-from .solve.modal import ModalModel, k_eigen, modal_model, modal_response, per_line, resolve_modes
+from .solve.modal import (ModalModel, k_eigen, modal_model, modal_response, per_line,
+                          resolve_modes, shape_at)
 from .solve.modes import ModeSet
 
 __all__ = ["ModalTable", "modal_table", "Coupling", "coupling"]
@@ -224,8 +225,8 @@ def modal_table(line: Line, count: int | ModeSet = 10, *, drive_at: float | None
                              "give both drive_at and response_at for the peak columns")
         drive, _q, xd, _side = check_request(line, drive, None, drive_at)
         xr = float(check_position(line, "response_at", response_at)[0])
-        pd = ms.shape([xd], derivative=1 if drive == "moment" else 0)[0]
-        pr = ms.shape([xr])[0]
+        pd = shape_at(ms, [xd], 1 if drive == "moment" else 0)[0]
+        pr = shape_at(ms, [xr])[0]
         # receptance peak of one mode: 1/(eta k) hysteretic, 1/(2 zeta sqrt(1 - zeta^2) k)
         # viscous (any vibration text)
         z = np.where(np.isfinite(zeta), zeta, eta_diag / 2.0)
@@ -298,8 +299,8 @@ def coupling(line: Line, count: int | ModeSet = 10, *, drive_at: float | None = 
         grid = wn[el, None] + np.linspace(-1.0, 1.0, points_per_peak)[None, :] * half[:, None]
         grid = np.clip(grid, 1e-9 * wn[el].max(), None)
         w = grid.ravel()
-        phi_d = ms.shape([xd])[0]
-        phi_r = ms.shape(xr)
+        phi_d = shape_at(ms, [xd])[0]
+        phi_r = shape_at(ms, xr)
         full = np.abs(modal_response(mm, w, phi_d, phi_r, "full")[:, 0]).reshape(grid.shape)
         diag = np.abs(modal_response(mm, w, phi_d, phi_r, "diagonal")[:, 0]).reshape(grid.shape)
         with np.errstate(divide="ignore"):

@@ -216,8 +216,9 @@ def _line(left, right, attachments=(ABSORBER, ROTARY), damping=None):
     return dl.Line.from_dict(spec)
 
 
-#: 40 Hz to 6 kHz: the dynamic stiffness of these lines stays conditioned (cond < 1e7)
-#: well enough for the two eliminations to agree to 1e-10 (below, see the mpmath test)
+#: 40 Hz to 6 kHz: the dynamic stiffness of these lines is mostly conditioned well enough
+#: (cond < 1e7) for the two eliminations to agree to 1e-10; near 40 Hz cond reaches ~1e9
+#: for some end pairs (below, see the mpmath test)
 F = np.linspace(40.0, 6000.0, 300)
 
 
@@ -269,7 +270,26 @@ def test_bending_frf_banded_equals_dense(monkeypatch, name):
         f = F[np.abs(F[:, None] / fn[None, fn > 0] - 1).min(axis=1) > 0.01]
     banded, dense = _both(monkeypatch, line, f, **kw)
     assert np.isfinite(banded).all()
-    check(name, banded, dense, rtol=1e-10, atol=1e-13 * np.abs(dense).max())
+    # two backward-stable eliminations agree to about eps cond(K) (Higham, Accuracy and
+    # Stability of Numerical Algorithms, 2nd ed., ch. 9): 1e-10, or more at the few
+    # frequencies where the dynamic stiffness is that ill-conditioned
+    rtol = np.maximum(1e-10, 10.0 * np.finfo(float).eps * _condition(line, f, kw))
+    scale = np.abs(dense).max(axis=1, keepdims=True)
+    err = np.abs(banded - dense) / np.maximum(np.abs(dense), 1e-3 * scale)
+    assert np.all(err.max(axis=1) <= rtol), (name, float((err.max(axis=1) / rtol).max()))
+
+
+def _condition(line, f, kw) -> np.ndarray:
+    """2-norm condition number, per frequency, of the dynamic stiffness (held DOFs
+    removed) on the mesh the FRF uses."""
+    from dampline.solve.mesh import assemble, held_dofs
+    w = 2.0 * math.pi * np.asarray(f)
+    extra = (kw["drive_at"], *kw["response_at"])
+    mesh = exact.mesh_avoiding_poles(line, w, extra)
+    K, _ = assemble(mesh, w)
+    held = set(held_dofs(mesh, (False, False)))
+    keep = [i for i in range(K.shape[1]) if i not in held]
+    return np.linalg.cond(K[:, keep][:, :, keep])
 
 
 def test_sensor_mast_banded_equals_dense(monkeypatch):

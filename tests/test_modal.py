@@ -814,3 +814,36 @@ def test_reused_modes_take_this_lines_absorber_damping():
     assert not np.allclose(reused, np.asarray(dl.frf(a, f, drive_at=1.0, response_at=[1.0],
                                                      method="modal", modes=dl.modes(a, 12))))
     assert np.max(np.abs(reused - exact)) < 0.05 * np.max(np.abs(exact))
+
+
+def test_decoupled_sum_in_real_arithmetic_matches_complex_division():
+    """The decoupled coefficients phi / D_nn(w), computed in real arithmetic, equal
+    numpy's complex division (Smith's algorithm) over the whole float range: typical
+    values, an exact zero of D (an undamped resonance: inf, as complex division gives)
+    and squares that would leave the range (1e+-200 scales)."""
+    from types import SimpleNamespace
+
+    from dampline.solve.modal import _decoupled
+
+    rng = np.random.default_rng(3)
+    N, w = 7, np.linspace(1.0, 50.0, 64)
+    phi = rng.standard_normal(N)
+    for scale in (1.0, 1e-200, 1e200):
+        K0 = np.diag((rng.uniform(1, 3e3, N) * (1 + 1j * rng.uniform(0, 0.1, N))) * scale)
+        C1 = np.diag(rng.uniform(0, 2.0, N) * scale)
+        M1 = np.diag(rng.uniform(0.5, 2.0, N) * scale)
+        mm = SimpleNamespace(K0=K0, C1=C1, M1=M1, terms=())
+        D = (np.diag(K0)[None, :] + 1j * w[:, None] * np.diag(C1)[None, :]
+             - (w * w)[:, None] * np.diag(M1)[None, :])
+        ref = phi[None, :] / D
+        got = _decoupled(mm, w, phi, room=1)[:, :N]
+        np.testing.assert_allclose(got, ref, rtol=1e-13, atol=0)
+    # an undamped mode exactly at a frequency: complex division gives inf (or nan)
+    mm = SimpleNamespace(K0=np.diag([4.0, 9.0]), C1=np.zeros((2, 2)), M1=np.eye(2), terms=())
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ref = np.array([1.0, 2.0])[None, :] / (np.array([4.0, 9.0])[None, :]
+                                               - np.array([[4.0], [1.0]]))
+    got = _decoupled(mm, np.array([2.0, 1.0]), np.array([1.0, 2.0]))
+    assert not np.isfinite(got[0, 0]) and not np.isfinite(ref[0, 0])
+    np.testing.assert_allclose(got[0, 1], ref[0, 1], rtol=1e-15)
+    np.testing.assert_allclose(got[1], ref[1], rtol=1e-15)

@@ -41,17 +41,26 @@ _KCOEF = np.array([[1.0 / math.factorial(4 * k + m) for k in range(_NTERMS)] for
 
 
 def _krylov(z: np.ndarray) -> list[np.ndarray]:
-    """C0..C3 at z (|z| < 1), by their series: the powers z^(4k) are formed once and
-    all four series are one small real-by-complex contraction."""
+    """C0..C3 at z (|z| < 1), by their series in w = z^4, each evaluated by Horner's
+    rule with its real coefficients (in place: a complex-by-real multiply and an add
+    per term; five times faster than forming the powers and contracting them)."""
     z = np.asarray(z, dtype=complex)
     z2 = z * z
-    z4 = z2 * z2
-    P = np.empty((_NTERMS,) + z.shape, dtype=complex)
-    P[0] = 1.0
-    for k in range(1, _NTERMS):
-        np.multiply(P[k - 1], z4, out=P[k])
-    S = np.einsum("mk,k...->m...", _KCOEF, P)      # no BLAS call: no thread wake-ups
-    return [S[0], z * S[1], z2 * S[2], z2 * z * S[3]]
+    w = z2 * z2
+    out = []
+    for m in range(4):
+        c = _KCOEF[m]
+        s = c[-1] * w
+        for k in range(_NTERMS - 2, 0, -1):
+            s += c[k]
+            s *= w
+        s += c[0]
+        out.append(s)
+    out[1] *= z
+    out[2] *= z2
+    out[3] *= z2
+    out[3] *= z
+    return out
 
 
 def _inv2(p, q, r, s):
@@ -132,41 +141,54 @@ def _halves(EI, beta, h, scale=1.0):
         antisymmetric:  K00 = -EI beta^3 Y / G,  K01 = -EI beta^2 E / G, K11 = -EI beta X / G
     """
     shape, (b1, lam, ei) = _regimes(beta, beta * h, EI)
-    small = np.abs(lam) < SMALL
-    out = [np.empty(lam.size, dtype=complex) for _ in range(6)]
-    for large, sel in ((True, np.flatnonzero(~small)), (False, np.flatnonzero(small))):
-        if not sel.size:
-            continue
-        bb, ll = b1[sel], lam[sel]
-        e1 = ei[sel] * bb
-        if scale != 1.0:
-            e1 *= scale
-        e2 = e1 * bb
-        e3 = e2 * bb
-        if large:
-            a = np.exp(-1j * ll)
-            b = np.exp(-ll)
-            P, Q, R, T = 1.0 - a, 1.0 + a, 1.0 - b, 1.0 + b
-            PT, QR = P * T, Q * R
-            iPT, iQR = 1j * PT, 1j * QR
-            ds = 1.0 / (iPT - QR)
-            da = 1.0 / (iQR - PT)
-            PR, QT = P * R, Q * T
-            e3 *= -2j
-            e1 *= -2.0
-            vals = (e3 * PR * ds, -e2 * (iPT + QR) * ds, e1 * QT * ds,
-                    e3 * QT * da, -e2 * (iQR + PT) * da, e1 * PR * da)
-        else:
-            c0, c1, c2, c3 = _krylov(0.5 * ll)
-            X, Y = c1 * c1 - c3 * c3, c0 * c0 - c2 * c2
-            E, G = c0 * c1 - c2 * c3, c0 * c3 - c1 * c2
-            ie, ig = 1.0 / E, 1.0 / G
-            e3 = -e3
-            vals = (e3 * X * ie, e2 * G * ie, e1 * Y * ie,
-                    e3 * Y * ig, -e2 * E * ig, -e1 * X * ig)
-        for o, v in zip(out, vals):
-            o[sel] = v
+    small = np.flatnonzero(np.abs(lam) < SMALL)
+    if small.size == lam.size:
+        out = _halves_small(b1, lam, ei, scale)
+    else:
+        # the large-|lambda| forms on every entry (those of the small ones, inaccurate or
+        # not finite there, are replaced next): no gather and scatter of the majority
+        with np.errstate(all="ignore"):
+            out = _halves_large(b1, lam, ei, scale)
+        if small.size:
+            for o, v in zip(out, _halves_small(b1[small], lam[small], ei[small], scale)):
+                o[small] = v
     return tuple(o.reshape(shape) for o in out)
+
+
+def _halves_large(bb, ll, ei, scale):
+    """:func:`_halves` for |lambda| >= 2 (flat arrays)."""
+    e1 = ei * bb
+    e1 *= -2.0 * scale                           # -2 EI beta scale
+    e2 = e1 * bb
+    e2 *= 0.5                                    # -EI beta^2 scale
+    e3 = e2 * bb
+    e3 *= 2j                                     # -2 i EI beta^3 scale
+    a = np.exp(-1j * ll)
+    b = np.exp(-ll)
+    P, Q, R, T = 1.0 - a, 1.0 + a, 1.0 - b, 1.0 + b
+    PT, QR = P * T, Q * R
+    iPT, iQR = 1j * PT, 1j * QR
+    ds = 1.0 / (iPT - QR)
+    da = 1.0 / (iQR - PT)
+    PR, QT = P * R, Q * T
+    return [e3 * PR * ds, e2 * (iPT + QR) * ds, e1 * QT * ds,
+            e3 * QT * da, e2 * (iQR + PT) * da, e1 * PR * da]
+
+
+def _halves_small(bb, ll, ei, scale):
+    """:func:`_halves` for |lambda| < 2 (flat arrays), by the Krylov-Duncan series."""
+    e1 = ei * bb
+    if scale != 1.0:
+        e1 *= scale
+    e2 = e1 * bb
+    e3 = e2 * bb
+    c0, c1, c2, c3 = _krylov(0.5 * ll)
+    X, Y = c1 * c1 - c3 * c3, c0 * c0 - c2 * c2
+    E, G = c0 * c1 - c2 * c3, c0 * c3 - c1 * c2
+    ie, ig = 1.0 / E, 1.0 / G
+    e3 = -e3
+    return [e3 * X * ie, e2 * G * ie, e1 * Y * ie,
+            e3 * Y * ig, -e2 * E * ig, -e1 * X * ig]
 
 
 def piece_entries(EI, beta, h):

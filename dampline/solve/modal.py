@@ -34,6 +34,7 @@ shape (see :func:`residual_field`).
 from __future__ import annotations
 
 import math
+import threading
 from dataclasses import dataclass
 from typing import Any, Callable
 
@@ -175,7 +176,30 @@ def _is_diagonal(A: np.ndarray) -> bool:
 
 
 def _points(ms: ModeSet, x: float, order: int = 0) -> np.ndarray:
-    return ms.shape([x], derivative=order)[0]
+    return shape_at(ms, [x], order)[0]
+
+
+def shape_at(ms: ModeSet, x, order: int = 0) -> np.ndarray:
+    """``ms.shape(x, derivative=order)``, kept on the ModeSet for a few points (up to 64):
+    the drive and response points of a dashboard are asked for again after every
+    damping move, and a bending shape costs a basis evaluation per mode. Read-only."""
+    try:
+        xs = np.asarray(x, dtype=float).ravel()
+    except (TypeError, ValueError):
+        return ms.shape(x, derivative=order)            # its ModelError names the input
+    if xs.size > 64 or isinstance(order, (bool, np.bool_)) \
+            or not isinstance(order, (int, np.integer)):
+        return ms.shape(x, derivative=order)
+    cache = ms.__dict__.setdefault("_shape_cache", {})
+    key = (xs.tobytes(), int(order))
+    hit = cache.get(key)
+    if hit is None:
+        hit = ms.shape(xs, derivative=order)
+        hit.flags.writeable = False
+        if len(cache) >= 256:
+            cache.clear()
+        cache[key] = hit
+    return hit
 
 
 @dataclass(frozen=True, eq=False)
@@ -426,7 +450,7 @@ def _low_rank(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, phi_r: np.ndarra
         if ke is None:
             return None
         lam, V, Vi = ke
-        lam_w = 1.0 / (lam[None, :] - (w * w)[:, None])
+        lam_w = _shifted_inverse(lam, w * w)
         left = phi_r @ V
         b = Vi @ phi_d
         Vt_P = V
@@ -451,15 +475,93 @@ def _low_rank(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, phi_r: np.ndarra
         return lam_w * (b[None, :] - z @ Q.T), left.T
 
 
+_local = threading.local()
+
+
+def _scratch(name: str, shape: tuple, dtype) -> np.ndarray:
+    """A work array kept between calls (one per name and thread): the modal sums of a
+    dashboard or a sweep repeat with the same shapes, and a fresh array of a few MB
+    costs more in first-touch page faults than the arithmetic done in it. Only for
+    temporaries that never leave the function that fills them."""
+    pool = _local.__dict__.setdefault("pool", {})
+    arr = pool.get(name)
+    if arr is None or arr.shape != shape or arr.dtype != dtype:
+        arr = pool[name] = np.empty(shape, dtype)
+    return arr
+
+
+def _shifted_inverse(lam: np.ndarray, w2: np.ndarray) -> np.ndarray:
+    """1 / (lam - w^2), (n_freq, N), in real arithmetic (as :func:`_decoupled`) into a
+    work array: only for use inside the caller."""
+    out = _scratch("shifted", (w2.size, lam.size), complex)
+    a = _scratch("a", (w2.size, lam.size), float)
+    den = _scratch("den", (w2.size, lam.size), float)
+    np.subtract(lam.real[None, :], w2[:, None], out=a)
+    li = lam.imag[None, :]
+    np.multiply(a, a, out=den)
+    den += li * li
+    if not (den.min() > 1e-290 and den.max() < 1e290):
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out[...] = 1.0 / (lam[None, :] - w2[:, None])
+        return out
+    np.divide(a, den, out=out.real)
+    np.divide(-li, den, out=out.imag)
+    return out
+
+
+def _decoupled(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, room: int = 0) -> np.ndarray:
+    """phi_d / D_nn(w), (n_freq, N + room) complex with ``room`` columns left for the
+    caller. The polynomial part in real arithmetic: D = a + i b with
+    a = Re K - w Im C - w^2 Re M, b = Im K + w Re C - w^2 Im M, and
+    phi / D = phi (a - i b) / (a^2 + b^2), written straight into the real and imaginary
+    parts of the result (numpy's complex division, Smith's algorithm, costs several
+    times more); where a^2 + b^2 would leave the float range, the complex division."""
+    N = phi_d.size
+    out = _scratch(f"decoupled+{room}", (w.size, N + room), complex)
+    if mm.terms:
+        d = mm.dynamic_matrix(w, diagonal=True)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out[:, :N] = phi_d[None, :] / d
+        return out
+    k, c, m = np.diag(mm.K0), np.diag(mm.C1), np.diag(mm.M1)
+    w2 = (w * w)[:, None]
+    shape = (w.size, N)
+    a, b, den = (_scratch(name, shape, float) for name in ("a", "b", "den"))
+    np.multiply(w2, -m.real[None, :], out=a)
+    a += k.real[None, :]
+    if np.any(c.imag):
+        a -= w[:, None] * c.imag[None, :]
+    if np.any(c.real):
+        np.multiply(w[:, None], c.real[None, :], out=b)
+    else:
+        b.fill(0.0)
+    if np.any(k.imag):
+        b += k.imag[None, :]
+    if np.any(m.imag):
+        b -= w2 * m.imag[None, :]
+    with np.errstate(over="ignore", under="ignore"):
+        np.multiply(a, a, out=den)
+        den += np.square(b, out=out.real[:, :N])
+    if not (den.min() > 1e-290 and den.max() < 1e290):
+        # a zero (an undamped resonance), or squares near the ends of the float range:
+        # numpy's complex division, which scales
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out[:, :N] = (1.0 / (a + 1j * b)) * phi_d[None, :]
+        return out
+    np.divide(phi_d[None, :], den, out=den)
+    np.multiply(a, den, out=out.real[:, :N])
+    np.multiply(b, den, out=b)
+    np.negative(b, out=out.imag[:, :N])
+    return out
+
+
 def modal_coefficients(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, phi_r: np.ndarray,
                        coupling: str):
     """(A, Bt) with the response A @ Bt, A (n_freq, m) and Bt (m, n_resp): m = N for
     decoupled or proportional damping, 2N in state space; None when D has
     frequency-dependent terms or ill-conditioned complex modes (solve per frequency)."""
     if coupling == "diagonal" or mm.proportional:
-        d = mm.dynamic_matrix(w, diagonal=True)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            return (1.0 / d) * phi_d[None, :], phi_r.T
+        return _decoupled(mm, w, phi_d), phi_r.T
     if mm.terms:
         return None
     low = _low_rank(mm, w, phi_d, phi_r)
@@ -486,6 +588,12 @@ def modal_response(mm: ModalModel, omega: np.ndarray, phi_d: np.ndarray, phi_r: 
     ``extra`` = (a(w), r) adds a(w) r, folded into the same matrix product (the residual)."""
     w = np.asarray(omega, dtype=float)
     if extra is not None:
+        if coupling == "diagonal" or mm.proportional:
+            # the residual's column written into the room left for it
+            A = _decoupled(mm, w, phi_d, room=1)
+            A[:, -1] = extra[0]
+            Bt = np.concatenate([phi_r.T, np.real_if_close(extra[1])[None, :]], axis=0)
+            return A @ Bt
         coef = modal_coefficients(mm, w, phi_d, phi_r, coupling)
         if coef is not None:
             A, Bt = coef
@@ -709,7 +817,7 @@ def modal_frf(line: Line, f: np.ndarray, xd: float, xr: np.ndarray, drive: str, 
     mm = modal_model(line, ms)
     order = _ORDER.get(quantity, 3 if line.kind == "bending" else 1)
     phi_d = _drive_vector(ms, xd, drive)
-    phi_r = ms.shape(xr, derivative=order)                       # (n_resp, N)
+    phi_r = shape_at(ms, xr, order)                              # (n_resp, N)
     res = residual_field(mm, xd, drive, xr, order) if residual else None
 
     def chunk(fc: np.ndarray) -> np.ndarray:

@@ -75,6 +75,9 @@ def test_dashboard_latency_takes_both_update_paths(tmp_path):
     assert r["n_moves"] == 5 and r["slider"] == "eta"
     for key in ("construction_first", "quick", "settle", "full", "geometry", "geometry_modes"):
         assert np.isfinite(r[key]) and r[key] > 0
+    # the full update's parts are the dashboard's own timers and fit inside its wall time
+    assert set(r["full_parts"]) == {"modal", "exact", "tables", "field"}
+    assert 0 < sum(r["full_parts"].values()) <= 1.5 * r["full"]
 
 
 def test_readme_table_is_replaced_between_markers_and_other_rows_kept(tmp_path):

@@ -1173,12 +1173,13 @@ def test_drive_point_close_to_a_segment_junction():
     _pp_near_junction_check("drive 10 um from a junction (modal series)", 1e-5, 1e-9)
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "known limitation: a uniform cantilever (1.7 m) with a 1 mm segment inside: the "
-    "piece stiffness ~ EI/h^3 of the short segment makes the dynamic stiffness so graded "
-    "that the natural frequencies resolve only to ~(L/h)^3 eps, measured 1.5e-6 relative "
-    "(the fundamental was once misread as a rigid-body mode; that part is fixed: rigid "
-    "motions now come from the supports)"))
+# regression: a uniform cantilever (1.7 m) with a 1 mm segment inside. The piece stiffness
+# ~ EI/h^3 of the short segment cancelled in the assembled quadratic form x^T K x of the
+# Rayleigh functional, so the natural frequencies resolved only to ~(L/h)^3 eps (measured
+# 1.5e-6 relative; this was a strict xfail). The functional is now summed piece by piece
+# from the symmetric and antisymmetric halves, each about its larger diagonal entry with
+# the determinant in closed form (modes._energy): measured 5e-13. (The fundamental was
+# once misread as a rigid-body mode; rigid motions now come from the supports.)
 def test_short_segment_inside_a_cantilever():
     # physically the uniform cantilever: Blevins T8-1, cos l cosh l = -1 (mpmath), to 1e-10
     line = _beam("clamped", "free", segments=[_seg(0.3 * L), _seg(1e-3), _seg(0.7 * L - 1e-3)])

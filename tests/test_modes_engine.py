@@ -11,10 +11,20 @@
    equation (free at x = 0, spring k at x = L: u = cos(beta x), E A u'(L) + k u(L) = 0,
    so beta L tan(beta L) = k L / (E A); Rao, Mechanical Vibrations, the end-spring bar)
    found by mpmath.
+3. The quadratic form x^T K(w) x of the Rayleigh functional, summed piece by piece
+   (``modes._energy``), for nearly rigid motions of a line with a very short piece,
+   against the same form of the mpmath stiffness of item 1 at 60 digits; and a stepped
+   cantilever with a 2 mm segment against the roots of its transfer-matrix frequency
+   determinant (Krylov-Duncan functions per segment, clamped-free boundary minor) found
+   by mpmath.
+4. The count of negative eigenvalues by LDL^T without pivoting with its growth check
+   (``modes._checked_negcount``) against LAPACK's eigenvalues, and the banded
+   Householder QR (``modes._band_qr``) against LAPACK's QR and solve.
 """
 
 from __future__ import annotations
 
+import importlib
 import math
 
 import mpmath as mp
@@ -22,8 +32,11 @@ import numpy as np
 import pytest
 
 import dampline as dl
-from _reference_tools import check
+from _reference_tools import check, scan_roots
 from dampline.solve import beam
+
+# the module (``dampline.solve.modes`` is also the name of the function it exports)
+engine = importlib.import_module("dampline.solve.modes")
 
 EI, M_LEN, H = 2.3, 1.7, 0.7          # N m^2, kg/m, m
 
@@ -114,3 +127,134 @@ def test_bar_on_a_soft_spring(spring_ratio):
           rtol=1e-13)
     # the first mode alone, asked for on its own, is the same number
     check("first mode asked for alone", dl.natural_frequencies(line, 1), got[:1], rtol=1e-14)
+
+
+# ======================================================================================
+# 3. The Rayleigh functional of a line with a very short piece
+# ======================================================================================
+@pytest.mark.parametrize("f_hz", [0.3, 40.0, 2.0e3])
+def test_energy_of_nearly_rigid_motions_against_mpmath(f_hz):
+    # a free-free line of 0.6 m, 1 mm and 0.5 m (pieces down to 0.38 mm: EI / h^3 of the
+    # short ones is ~1e10 times that of the long ones). Rigid translation and rotation
+    # plus a small bending field: x^T K x is then of the size of the inertia terms, far
+    # below the stiffness entries of the short pieces, which cancel in an assembled form
+    E, rho, A, I = 2.1e11, 7850.0, 4.0e-4, 3.0e-8
+    segs = [{"length": L_, "E": E, "rho": rho, "area": A, "I": I} for L_ in (0.6, 1e-3, 0.5)]
+    line = dl.Line.from_dict({"kind": "bending", "segments": segs,
+                              "ends": {"left": "free", "right": "free"}})
+    mesh = engine._Counter(line).mesh
+    x = mesh.x
+    rng = np.random.default_rng(3)
+    X = np.zeros((4, mesh.n_dof))
+    for r in range(4):
+        a, b = rng.normal(size=2)
+        bend = 1e-6 * rng.normal(size=(2, x.size))
+        X[r, 0::2] = a + b * x + bend[0]
+        X[r, 1::2] = b + bend[1]
+    w = np.full(4, 2 * math.pi * f_hz)
+    got, _mag = engine._energy(mesh, w, X)
+    ref = np.empty(4)
+    with mp.workdps(60):
+        ww = mp.mpf(w[0])
+        ei, m = mp.mpf(E) * mp.mpf(I), mp.mpf(rho) * mp.mpf(A)
+        b = mp.root(ww * ww * m / ei, 4)
+        for r in range(4):
+            tot = mp.mpf(0)
+            for p, hp in enumerate(mesh.piece_h):
+                K = _stiffness_mp(b, mp.mpf(hp), ei)
+                u = [mp.mpf(v) for v in X[r, 2 * p:2 * p + 4]]
+                tot += mp.fsum(u[i] * K[i, j] * u[j] for i in range(4) for j in range(4))
+            ref[r] = float(tot)
+    # (the assembled form x^T (K x) is off by ~5e-5 here)
+    check(f"x^T K x of nearly rigid motions, f = {f_hz:g} Hz (mpmath stiffness)", got, ref,
+          rtol=1e-11)
+
+
+def _stepped_cantilever_delta(props):
+    """Frequency determinant g(w, lib) of a clamped-free beam of uniform segments
+    (length, EI, m): the boundary minor (bending moment, shear) at the free end of the
+    two fields started at the clamped end, carried by the Krylov-Duncan transfer matrix
+    of each segment (state w, w', EI w'', EI w'''); scaled by exp(-sum beta L), entire
+    in w^2: no poles."""
+    def g(w, lib):
+        one = w * 0 + 1
+        c1 = [0 * one, 0 * one, one, 0 * one]
+        c2 = [0 * one, 0 * one, 0 * one, one]
+        zt = 0 * one
+        for length, ei, m in props:
+            b = (w * w * m / ei) ** 0.25 if lib is np else mp.root(w * w * m / ei, 4)
+            z = b * length
+            zt = zt + z
+            ch, sh, c, s = lib.cosh(z), lib.sinh(z), lib.cos(z), lib.sin(z)
+            S, T, U, V = (ch + c) / 2, (sh + s) / 2, (ch - c) / 2, (sh - s) / 2
+            Tm = [[S, T / b, U / (b * b * ei), V / (b ** 3 * ei)],
+                  [b * V, S, T / (b * ei), U / (b * b * ei)],
+                  [ei * b * b * U, ei * b * V, S, T / b],
+                  [ei * b ** 3 * T, ei * b * b * U, b * V, S]]
+            c1 = [sum(Tm[i][j] * c1[j] for j in range(4)) for i in range(4)]
+            c2 = [sum(Tm[i][j] * c2[j] for j in range(4)) for i in range(4)]
+        return (c1[2] * c2[3] - c2[2] * c1[3]) * lib.exp(-zt)
+    return g
+
+
+def test_stepped_cantilever_with_a_2_mm_segment():
+    # steel 0.8 m, a 2 mm collar (4x the second moment), aluminium 0.9 m: the collar's
+    # pieces are ~1e9 times stiffer than the rest, the case where the roots were once
+    # resolved only to ~(L / h)^3 eps
+    segs = [(0.8, 2.1e11, 7850.0, 4.0e-4, 3.0e-8), (2e-3, 2.1e11, 7850.0, 8.0e-4, 1.2e-7),
+            (0.9, 7.0e10, 2700.0, 4.0e-4, 3.0e-8)]
+    line = dl.Line.from_dict({
+        "kind": "bending", "ends": {"left": "clamped", "right": "free"},
+        "segments": [{"length": L_, "E": E_, "rho": r_, "area": A_, "I": I_}
+                     for L_, E_, r_, A_, I_ in segs]})
+    count = 8
+    got = dl.natural_frequencies(line, count)
+    props = [(L_, E_ * I_, r_ * A_) for L_, E_, r_, A_, I_ in segs]
+    w = scan_roots(_stepped_cantilever_delta(props), 2 * math.pi * 1.2 * got[-1], count,
+                   n_grid=20000, dps=40)
+    check("stepped cantilever with a 2 mm collar: f_n (transfer-matrix determinant, mpmath)",
+          got, w / (2 * math.pi), rtol=1e-11)
+
+
+# ======================================================================================
+# 4. The certifying count and the banded QR against LAPACK
+# ======================================================================================
+def test_checked_count_against_lapack_eigenvalues():
+    # random symmetric matrices of half-bandwidth 3, every fourth with a nearly singular
+    # leading 6x6 block (its last pivot ~1e-13): where the growth check trusts the LDL^T
+    # count it equals the number of negative eigenvalues from LAPACK; the nearly singular
+    # ones are not trusted
+    rng = np.random.default_rng(5)
+    nb, n, bw = 400, 24, 3
+    A = np.zeros((nb, n, n))
+    for k in range(bw + 1):
+        i = np.arange(n - k)
+        v = rng.normal(size=(nb, n - k))
+        A[:, i, i + k] = v
+        A[:, i + k, i] = v
+    bad = np.arange(0, nb, 4)
+    lead = A[bad, :5, :5]
+    A[bad, 5, 5] = np.einsum("fi,fi->f", A[bad, 5, :5],
+                             np.linalg.solve(lead, A[bad, :5, 5][..., None])[..., 0]) + 1e-13
+    ref = (np.linalg.eigvalsh(A) < 0.0).sum(axis=1)
+    neg, trusted = engine._checked_negcount(A.copy(), bw)
+    assert np.array_equal(neg[trusted], ref[trusted])
+    assert not trusted[bad].any()
+    assert trusted.mean() > 0.5
+
+
+def test_banded_qr_against_lapack():
+    rng = np.random.default_rng(8)
+    nb, n, bw = 30, 17, 3
+    A = np.zeros((nb, n, n))
+    for k in range(-bw, bw + 1):
+        i = np.arange(max(0, -k), min(n, n - k))
+        A[:, i, i + k] = rng.normal(size=(nb, i.size))
+    R = A.copy()
+    V, beta = engine._band_qr(R, bw)
+    _q, R_ref = np.linalg.qr(A)
+    check("banded QR: |R| (LAPACK)", np.abs(R), np.abs(R_ref), rtol=0, atol=1e-12)
+    x = rng.normal(size=(nb, n))
+    y = np.linalg.solve(np.triu(R), engine._apply_qt(V, beta, x)[..., None])[..., 0]
+    check("banded QR: solution of A y = x (LAPACK)", y,
+          np.linalg.solve(A, x[..., None])[..., 0], rtol=0, atol=1e-10 * np.abs(y).max())

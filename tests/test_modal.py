@@ -847,3 +847,27 @@ def test_decoupled_sum_in_real_arithmetic_matches_complex_division():
     assert not np.isfinite(got[0, 0]) and not np.isfinite(ref[0, 0])
     np.testing.assert_allclose(got[0, 1], ref[0, 1], rtol=1e-15)
     np.testing.assert_allclose(got[1], ref[1], rtol=1e-15)
+
+
+def test_shapes_kept_per_modeset_equal_fresh_ones_and_stay_read_only():
+    """shape_at keeps shapes at repeated points on the ModeSet: the values equal a fresh
+    evaluation (closed form of a uniform fixed-free bar, sin((2n-1) pi x / 2L) scaled to
+    unit modal mass), the arrays are read-only, and a bad point still names itself."""
+    from dampline.solve.modal import shape_at
+
+    L, E, rho, A = 1.2, 2.1e11, 7850.0, 3e-4
+    line = dl.Line.from_dict({"kind": "axial", "segments": [{"length": L, "E": E, "rho": rho,
+                                                             "area": A}],
+                              "ends": {"left": "fixed", "right": "free"}})
+    ms = dl.modes(line, 6)
+    x = np.linspace(0.0, L, 37)
+    n = np.arange(1, 7)
+    ref = np.sqrt(2.0 / (rho * A * L)) * np.sin((2 * n - 1) * np.pi * x[:, None] / (2 * L))
+    for _ in range(2):                                   # computed, then kept
+        got = shape_at(ms, x)
+        sign = np.sign(got[-1] / ref[-1])
+        np.testing.assert_allclose(got * sign, ref, rtol=1e-12, atol=1e-12 * np.abs(ref).max())
+    assert shape_at(ms, x) is got and not got.flags.writeable
+    np.testing.assert_array_equal(shape_at(ms, x, 1), ms.shape(x, derivative=1))
+    with pytest.raises(dl.ModelError, match="x"):
+        shape_at(ms, [2 * L])

@@ -179,15 +179,21 @@ def _points(ms: ModeSet, x: float, order: int = 0) -> np.ndarray:
     return shape_at(ms, [x], order)[0]
 
 
+#: values of mode shapes kept per ModeSet by :func:`shape_at` (entries, all point sets)
+_SHAPE_CACHE_ENTRIES = 2_000_000
+
+
 def shape_at(ms: ModeSet, x, order: int = 0) -> np.ndarray:
-    """``ms.shape(x, derivative=order)``, kept on the ModeSet for a few points (up to 64):
-    the drive and response points of a dashboard are asked for again after every
-    damping move, and a bending shape costs a basis evaluation per mode. Read-only."""
+    """``ms.shape(x, derivative=order)``, kept on the ModeSet (up to about 16 MB of
+    values per set): the drive, response and field points of a dashboard or a study
+    are asked for again after every damping move, and each shape value costs a
+    transcendental function or a basis evaluation. Read-only."""
     try:
         xs = np.asarray(x, dtype=float).ravel()
     except (TypeError, ValueError):
         return ms.shape(x, derivative=order)            # its ModelError names the input
-    if xs.size > 64 or isinstance(order, (bool, np.bool_)) \
+    size = xs.size * ms.count
+    if size > _SHAPE_CACHE_ENTRIES // 4 or isinstance(order, (bool, np.bool_)) \
             or not isinstance(order, (int, np.integer)):
         return ms.shape(x, derivative=order)
     cache = ms.__dict__.setdefault("_shape_cache", {})
@@ -196,7 +202,7 @@ def shape_at(ms: ModeSet, x, order: int = 0) -> np.ndarray:
     if hit is None:
         hit = ms.shape(xs, derivative=order)
         hit.flags.writeable = False
-        if len(cache) >= 256:
+        if sum(v.size for v in cache.values()) + size > _SHAPE_CACHE_ENTRIES:
             cache.clear()
         cache[key] = hit
     return hit
@@ -526,23 +532,30 @@ def _decoupled(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, room: int = 0) 
     k, c, m = np.diag(mm.K0), np.diag(mm.C1), np.diag(mm.M1)
     w2 = (w * w)[:, None]
     shape = (w.size, N)
-    a, b, den = (_scratch(name, shape, float) for name in ("a", "b", "den"))
-    np.multiply(w2, -m.real[None, :], out=a)
-    a += k.real[None, :]
+    a, den, tmp = (_scratch(name, shape, float) for name in ("a", "den", "tmp"))
+    if np.all(m.real == 1.0):                     # mass-normalised modes: M1 = I
+        np.subtract(k.real[None, :], w2, out=a)
+    else:
+        np.multiply(w2, m.real[None, :], out=a)
+        np.subtract(k.real[None, :], a, out=a)
     if np.any(c.imag):
         a -= w[:, None] * c.imag[None, :]
-    if np.any(c.real):
+    # b: a full array only where it varies with frequency, else one row (broadcast)
+    if np.any(c.real) or np.any(m.imag):
+        b = _scratch("b", shape, float)
         np.multiply(w[:, None], c.real[None, :], out=b)
-    else:
-        b.fill(0.0)
-    if np.any(k.imag):
         b += k.imag[None, :]
-    if np.any(m.imag):
-        b -= w2 * m.imag[None, :]
+        if np.any(m.imag):
+            b -= w2 * m.imag[None, :]
+    else:
+        b = np.ascontiguousarray(k.imag[None, :])
     with np.errstate(over="ignore", under="ignore"):
         np.multiply(a, a, out=den)
-        den += np.square(b, out=out.real[:, :N])
-    if not (den.min() > 1e-290 and den.max() < 1e290):
+        np.multiply(b, b, out=tmp)
+        den += tmp
+    # the squares stay in range when every term of D does (|D| < 1e145)
+    top = np.abs(k).max() + w2.max() * np.abs(m).max() + w.max() * np.abs(c).max()
+    if not (den.min() > 1e-290 and top < 1e145):
         # a zero (an undamped resonance), or squares near the ends of the float range:
         # numpy's complex division, which scales
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -550,8 +563,8 @@ def _decoupled(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, room: int = 0) 
         return out
     np.divide(phi_d[None, :], den, out=den)
     np.multiply(a, den, out=out.real[:, :N])
-    np.multiply(b, den, out=b)
-    np.negative(b, out=out.imag[:, :N])
+    np.multiply(b, den, out=tmp)
+    np.negative(tmp, out=out.imag[:, :N])
     return out
 
 

@@ -440,6 +440,15 @@ def _dense_solve(A: np.ndarray, b: np.ndarray) -> np.ndarray:
 def _field(mesh: Mesh, S, k, U, p, xi, particular, order: int) -> np.ndarray:
     """Interior field from the nodal solution, plus the clamped-piece particular solution
     of an interior point load in the pieces that hold one."""
+    if order < mesh.dpn:
+        # the field a node's own DOF holds (displacement or pressure; a beam's rotation)
+        # at points that are nodes -- response points are made nodes of the mesh, so
+        # this is the usual case -- read directly: the clamped-piece particular solution
+        # vanishes at the piece ends with its slope
+        left, right = xi == 0.0, xi == mesh.piece_h[p]
+        if np.all(left | right):
+            node = np.where(left, p, p + 1)
+            return U[:, mesh.dpn * node + order].copy()
     out = interior_field(mesh, S, k, U, p, xi, order)
     if particular is None:
         return out

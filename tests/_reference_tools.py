@@ -1,5 +1,6 @@
-"""Small tools shared by the physics tests: a reporting assert, Gauss quadrature and
-a bracketing root scan with mpmath. Nothing here imports dampline."""
+"""Small tools shared by the physics tests: a reporting assert, Gauss quadrature, a
+bracketing root scan with mpmath and each kind's wave-equation coefficients. Nothing
+here imports dampline."""
 
 from __future__ import annotations
 
@@ -67,3 +68,24 @@ def scan_roots(g, w_max: float, count: int, n_grid: int, w_min: float = 0.0,
             roots.append(float(r))
     assert len(roots) == count, f"scan found {len(roots)} of {count} roots: extend w_max"
     return np.array(roots)
+
+
+#: air at 20 C (the duct segments' default fluid): density kg/m^3, sound speed m/s
+AIR_RHO, AIR_C = 1.204, 343.2
+
+
+def wave_coefficients(kind: str, seg: dict) -> tuple[float, float]:
+    """(S, m) of a segment spec in the wave equation (S u')' + w^2 m u = 0 of its kind
+    (for bending, E I and rho A of (E I w'')'' = w^2 rho A w): E A and rho A (axial),
+    G J and rho J (torsion), T and mu (string), A / rho and A / (rho c^2) (duct, the
+    analogue of a compliance; Kinsler et al., Fundamentals of Acoustics), E I and rho A."""
+    if kind == "axial":
+        return seg["E"] * seg["area"], seg["rho"] * seg["area"]
+    if kind == "torsion":
+        return seg["G"] * seg["J"], seg["rho"] * seg["J"]
+    if kind == "string":
+        return seg["tension"], seg["mass_per_length"]
+    if kind == "duct":
+        rho, c = seg.get("rho", AIR_RHO), seg.get("c", AIR_C)
+        return seg["area"] / rho, seg["area"] / (rho * c ** 2)
+    return seg["E"] * seg["I"], seg["rho"] * seg["area"]

@@ -31,6 +31,8 @@ from hypothesis import strategies as st
 import dampline as dl
 from dampline import ModelError
 
+from _reference_tools import wave_coefficients
+
 N_EXAMPLES = int(os.environ.get("DAMPLINE_FUZZ_EXAMPLES", "80"))
 #: DAMPLINE_FUZZ_RANDOM=1 explores with fresh random seeds (not for CI: not repeatable)
 FUZZ = settings(max_examples=N_EXAMPLES, deadline=None, database=None,
@@ -56,20 +58,6 @@ QUANTITIES = {"duct": ["pressure", "velocity", "volume_velocity"],
 STRUCT_QUANTITIES = ["receptance", "mobility", "accelerance", "force"]
 
 
-def _S_m(kind, seg):
-    """Stiffness coefficient S and mass per length m of a segment spec (each kind's wave
-    equation: E A, G J, T, A / rho with A / (rho c^2) for ducts, E I for beams)."""
-    if kind == "axial":
-        return seg["E"] * seg["area"], seg["rho"] * seg["area"]
-    if kind == "torsion":
-        return seg["G"] * seg["J"], seg["rho"] * seg["J"]
-    if kind == "string":
-        return seg["tension"], seg["mass_per_length"]
-    if kind == "duct":
-        return seg["area"] / seg["rho"], seg["area"] / (seg["rho"] * seg["c"] ** 2)
-    return seg["E"] * seg["I"], seg["rho"] * seg["area"]
-
-
 decade = st.floats(-3.0, 3.0)
 
 
@@ -92,7 +80,7 @@ def valid_specs(draw, damped=True, kinds=tuple(BASE)):
             seg[k] = v * 10 ** draw(decade)
         segs.append(seg)
     L = sum(s["length"] for s in segs)
-    Sm = [_S_m(kind, s) for s in segs]
+    Sm = [wave_coefficients(kind, s) for s in segs]
     S_ref = math.exp(np.mean([math.log(a) for a, _ in Sm]))
     m_ref = math.exp(np.mean([math.log(b) for _, b in Sm]))
     if kind == "bending":

@@ -25,7 +25,7 @@ from hypothesis import HealthCheck, assume, event, given, settings
 from hypothesis import strategies as st
 
 import dampline as dl
-from _reference_tools import gauss_points
+from _reference_tools import gauss_points, wave_coefficients
 
 SETTINGS = settings(max_examples=25, deadline=None, derandomize=True, database=None,
                     suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
@@ -47,20 +47,6 @@ DELTA = {"unflanged": 0.6133, "flanged": 0.8216}
 RESISTANCE = {"unflanged": 0.25, "flanged": 0.5}
 
 
-def S_m(kind, seg):
-    """S and m of each kind's wave equation (E A, G J, T, A / rho, E I; rho A, rho J, mu,
-    A / (rho c^2), rho A)."""
-    if kind == "axial":
-        return seg["E"] * seg["area"], seg["rho"] * seg["area"]
-    if kind == "torsion":
-        return seg["G"] * seg["J"], seg["rho"] * seg["J"]
-    if kind == "string":
-        return seg["tension"], seg["mass_per_length"]
-    if kind == "duct":
-        return seg["area"] / seg["rho"], seg["area"] / (seg["rho"] * seg["c"] ** 2)
-    return seg["E"] * seg["I"], seg["rho"] * seg["area"]
-
-
 scale = st.floats(0.3, 3.0)
 
 
@@ -80,7 +66,7 @@ def lines(draw, kinds=tuple(BASE), damping=("loss_factor", "none", "rayleigh"),
             seg["eta"] = draw(st.floats(least, 0.1))
         segs.append(seg)
     L = sum(s["length"] for s in segs)
-    Sm = [S_m(kind, s) for s in segs]
+    Sm = [wave_coefficients(kind, s) for s in segs]
     S_ref = float(np.mean([a for a, _ in Sm]))
     m_ref = float(np.mean([b for _, b in Sm]))
     if kind == "bending":
@@ -330,7 +316,7 @@ def _dissipated(spec, line, f, xd):
     pts = [a.at for a in line.attachments] + [xd]
     bounds = line.boundaries
     for j, seg in enumerate(spec["segments"]):
-        S, m = S_m(kind, seg)
+        S, m = wave_coefficients(kind, seg)
         a, b = bounds[j], bounds[j + 1]
         cuts = sorted({a, b} | {x for x in pts if a < x < b})
         k = (w * w * m / S) ** 0.25 if kind == "bending" else w * math.sqrt(m / S)

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 
 import dampline as dl
-from _reference_tools import check, gauss_points, scan_roots
+from _reference_tools import check, gauss_points, scan_roots, wave_coefficients
 
 # One representative of each kind: its spec maker, wave speed c and mass per
 # length m (the analogue compliance A / (rho c^2) for a duct). Ends are named in
@@ -75,18 +75,6 @@ def _uniform_reference(ends: str, c: float, L: float, count: int):
         def dshape(x):
             return -amp * kn * np.sin(np.outer(x, kn))
     return kn * c / (2 * math.pi), shape, dshape
-
-
-def _stiffness_and_mass(kind, seg):
-    """(S, m) of a segment spec: E A, G J, T or A / rho, and rho A, rho J, mu or
-    A / (rho c^2) (the wave equation of each kind; Kinsler et al.)."""
-    if kind == "axial":
-        return seg["E"] * seg["area"], seg["rho"] * seg["area"]
-    if kind == "torsion":
-        return seg["G"] * seg["J"], seg["rho"] * seg["J"]
-    if kind == "string":
-        return seg["tension"], seg["mass_per_length"]
-    return seg["area"] / 1.204, seg["area"] / (1.204 * 343.2 ** 2)
 
 
 def _end_words(kind, ends):
@@ -186,7 +174,7 @@ def test_stepped_line_against_mpmath_roots(kind, ends, lengths, scale):
     line = _line(kind, segs, *_end_words(kind, ends))
     count = 25
     got = dl.natural_frequencies(line, count)
-    (S1, m1), (S2, m2) = (_stiffness_and_mass(kind, s) for s in segs)
+    (S1, m1), (S2, m2) = (wave_coefficients(kind, s) for s in segs)
     c1, c2 = math.sqrt(S1 / m1), math.sqrt(S2 / m2)
     z1, z2 = math.sqrt(S1 * m1), math.sqrt(S2 * m2)     # S / c
     t1, t2 = lengths[0] / c1, lengths[1] / c2

@@ -249,6 +249,18 @@ def _gather(cols: np.ndarray, idx: np.ndarray) -> np.ndarray:
     return np.moveaxis(cols[:, idx], 0, 1)
 
 
+def _drive_pieces(plans: list[_Plan], sid: np.ndarray, H: np.ndarray):
+    """The piece holding an interior drive, split at the load, over the variants: (piece
+    index, each variant's load position in it, each variant's row into the distinct
+    (segment column, position, length) triples, and those triples as three arrays)."""
+    pl_ = plans[0].drive_piece[0]
+    xl = np.array([pl.drive_piece[1] for pl in plans])
+    didx, dkeys = _unique_rows(list(zip(sid[:, pl_].tolist(), xl.tolist(),
+                                        H[:, pl_].tolist())))
+    ds, dx, dh = (np.array([q[i] for q in dkeys]) for i in range(3))
+    return pl_, xl, didx, ds, dx, dh
+
+
 def _unique_rows(keys: list) -> tuple[np.ndarray, list]:
     """Index of each key into the list of distinct keys (first-seen order)."""
     table = _Table()
@@ -378,13 +390,7 @@ def _second_order_tables(plans: list[_Plan], omega: np.ndarray) -> dict:
          "k11": np.ascontiguousarray(k11_u.T), "k12": np.ascontiguousarray(k12_u.T),
          "terms": _point_terms(plans, omega), "XI": np.stack([pl.xir for pl in plans])}
     if p0.drive != "velocity" and p0.drive_node is None:
-        pl_ = p0.drive_piece[0]
-        xl = np.array([pl.drive_piece[1] for pl in plans])
-        didx, dkeys = _unique_rows(list(zip(sid[:, pl_].tolist(), xl.tolist(),
-                                            H[:, pl_].tolist())))
-        ds = np.array([q[0] for q in dkeys])
-        dx = np.array([q[1] for q in dkeys])
-        dh = np.array([q[2] for q in dkeys])
+        pl_, xl, didx, ds, dx, dh = _drive_pieces(plans, sid, H)
         a11, a12 = _by_columns(lambda c: piece_stiffness(S[:, ds[c]], k[:, ds[c]], dx[c], True),
                                ds.size, 2, S.shape[0])
         b11, b12 = _by_columns(lambda c: piece_stiffness(S[:, ds[c]], k[:, ds[c]],
@@ -554,13 +560,7 @@ def _bending_tables(plans: list[_Plan], omega: np.ndarray) -> dict:
     if p0.drive != "velocity" and p0.drive_node is None:
         # exact._point_load: the piece split at the load, both parts clamped
         j = 1 if p0.drive == "moment" else 0
-        pl_ = p0.drive_piece[0]
-        xl = np.array([pl.drive_piece[1] for pl in plans])
-        didx, dkeys = _unique_rows(list(zip(sid[:, pl_].tolist(), xl.tolist(),
-                                            H[:, pl_].tolist())))
-        ds = np.array([q[0] for q in dkeys])
-        dx = np.array([q[1] for q in dkeys])
-        dh = np.array([q[2] for q in dkeys])
+        pl_, xl, didx, ds, dx, dh = _drive_pieces(plans, sid, H)
         Sd, kd = S[:, ds].T, k[:, ds].T                          # (nud, nf)
         A = beam.piece_stiffness(Sd, kd, dx[:, None])            # (nud, nf, 4, 4)
         Bm = beam.piece_stiffness(Sd, kd, (dh - dx)[:, None])

@@ -488,7 +488,9 @@ def _scratch(name: str, shape: tuple, dtype) -> np.ndarray:
     """A work array kept between calls (one per name and thread): the modal sums of a
     dashboard or a sweep repeat with the same shapes, and a fresh array of a few MB
     costs more in first-touch page faults than the arithmetic done in it. Only for
-    temporaries that never leave the function that fills them."""
+    temporaries used up before the next call that asks for the same name: the
+    decoupled coefficients (:func:`_decoupled`) go straight into modal_response's
+    product; the shifted inverses stay inside :func:`_low_rank`."""
     pool = _local.__dict__.setdefault("pool", {})
     arr = pool.get(name)
     if arr is None or arr.shape != shape or arr.dtype != dtype:
@@ -572,7 +574,9 @@ def modal_coefficients(mm: ModalModel, w: np.ndarray, phi_d: np.ndarray, phi_r: 
                        coupling: str):
     """(A, Bt) with the response A @ Bt, A (n_freq, m) and Bt (m, n_resp): m = N for
     decoupled or proportional damping, 2N in state space; None when D has
-    frequency-dependent terms or ill-conditioned complex modes (solve per frequency)."""
+    frequency-dependent terms or ill-conditioned complex modes (solve per frequency).
+    For decoupled damping A is a work array (:func:`_scratch`), valid until the next
+    call: use it at once, as :func:`modal_response` does."""
     if coupling == "diagonal" or mm.proportional:
         return _decoupled(mm, w, phi_d), phi_r.T
     if mm.terms:
